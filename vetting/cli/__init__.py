@@ -1,0 +1,1 @@
+"""The headless command-line face of vetting (no Textual here)."""

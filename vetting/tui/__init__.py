@@ -1,0 +1,1 @@
+"""vetting.tui"""
