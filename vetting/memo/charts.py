@@ -1,0 +1,131 @@
+"""Charts for the memo, drawn with matplotlib (Agg backend, imported only when a chart is drawn).
+
+HTML gets inline SVG (text kept as text, no outside references); Word gets PNG. The numbers
+plotted all come from the appraisal engine through the chart objects in document.py; the only
+thing computed here is the shape of the normal curve drawn under the norm group's mean and SD.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+
+from vetting.memo.document import Chart, DistributionChart, SweepChart
+
+_INK = "#1f2933"
+_ACCENT = "#1c5d99"
+_SECOND = "#b5542d"
+_BAND = "#f2c14e"
+
+
+def _plt():
+    import matplotlib
+
+    matplotlib.use("Agg", force=True)
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def _safe(text: str) -> str:
+    """Keep user text literal: a '$' would otherwise switch matplotlib into math mode."""
+    return text.replace("\\", "\\\\").replace("$", r"\$")
+
+
+def _draw(chart: Chart):
+    plt = _plt()
+    with plt.rc_context(
+        {
+            "font.size": 9,
+            "axes.edgecolor": _INK,
+            "axes.labelcolor": _INK,
+            "xtick.color": _INK,
+            "ytick.color": _INK,
+            "axes.spines.top": False,
+            "axes.spines.right": False,
+            "svg.fonttype": "none",
+            "svg.hashsalt": "vetting-memo",
+        }
+    ):
+        fig, ax = plt.subplots(figsize=(6.4, 3.3), dpi=100)
+        if isinstance(chart, SweepChart):
+            _draw_sweep(ax, chart)
+        elif isinstance(chart, DistributionChart):
+            _draw_distribution(ax, chart)
+        else:  # pragma: no cover - the model has only these two
+            raise TypeError(f"unknown chart {type(chart).__name__}")
+        fig.tight_layout()
+    return fig
+
+
+def _draw_sweep(ax, chart: SweepChart) -> None:
+    xs = chart.selection_ratios
+    ax.plot(xs, chart.success_rates, color=_ACCENT, marker="o", ms=3, label="Expected success rate")
+    pairs = [(x, y) for x, y in zip(xs, chart.impact_ratios) if y is not None]
+    if pairs:
+        ax.plot(
+            [p[0] for p in pairs],
+            [p[1] for p in pairs],
+            color=_SECOND,
+            marker="s",
+            ms=3,
+            label="Expected impact ratio",
+        )
+        ax.axhline(chart.impact_floor, color=_SECOND, lw=0.8, ls=":", label=f"Impact-ratio floor {chart.impact_floor:g}")
+    if chart.base_rate is not None:
+        ax.axhline(chart.base_rate, color=_ACCENT, lw=0.8, ls=":", label=f"Base rate {chart.base_rate:g}")
+    if chart.planned_ratio is not None:
+        ax.axvline(chart.planned_ratio, color=_INK, lw=0.8, ls="--", label=f"Planned ratio {chart.planned_ratio:.2f}")
+    ax.set_xlabel("Selection ratio (share of applicants who pass)")
+    ax.set_ylabel("Rate / ratio")
+    ax.set_ylim(0, 1.05)
+    ax.set_xlim(0, 1)
+    ax.set_title(_safe(chart.instrument), fontsize=9, loc="left")
+    ax.legend(fontsize=7, loc="lower right", frameon=False)
+
+
+def _draw_distribution(ax, chart: DistributionChart) -> None:
+    import numpy as np
+    from scipy.stats import norm
+
+    lo = min(chart.mean - 3.5 * chart.sd, chart.band_low)
+    hi = max(chart.mean + 3.5 * chart.sd, chart.band_high)
+    xs = np.linspace(lo, hi, 300)
+    ys = norm.pdf(xs, loc=chart.mean, scale=chart.sd)
+    ax.plot(xs, ys, color=_ACCENT, lw=1.4, label=_safe(f"Norm group: {chart.norm_label}"))
+    above = xs >= chart.cut_raw
+    ax.fill_between(xs[above], ys[above], color=_ACCENT, alpha=0.15, lw=0, label="Scores at or above the cut")
+    ax.axvspan(chart.band_low, chart.band_high, color=_BAND, alpha=0.35, lw=0, label="SEM band around the cut")
+    ax.axvline(chart.cut_raw, color=_SECOND, lw=1.2, label=f"Cut {chart.cut_raw:.1f} (raw)")
+    ax.set_xlabel("Raw score")
+    ax.set_yticks([])
+    ax.set_ylabel("Share of applicants")
+    ax.set_ylim(bottom=0)
+    ax.set_title(_safe(chart.instrument), fontsize=9, loc="left")
+    ax.legend(fontsize=7, loc="upper left", frameon=False)
+
+
+def to_svg(chart: Chart) -> str:
+    """The chart as an inline <svg> element (no XML prolog, no outside references)."""
+    plt = _plt()
+    fig = _draw(chart)
+    buf = io.StringIO()
+    try:
+        fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
+    finally:
+        plt.close(fig)
+    text = buf.getvalue()
+    text = text[text.index("<svg") :]
+    # drop the RDF metadata block: it only names vocabularies by URL and adds nothing to read
+    return re.sub(r"\s*<metadata>.*?</metadata>", "", text, flags=re.S)
+
+
+def to_png(chart: Chart, dpi: int = 200) -> bytes:
+    plt = _plt()
+    fig = _draw(chart)
+    buf = io.BytesIO()
+    try:
+        fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
+    finally:
+        plt.close(fig)
+    return buf.getvalue()

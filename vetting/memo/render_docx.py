@@ -1,0 +1,218 @@
+"""Word rendering with python-docx: real headings, styled tables, charts as PNG pictures.
+
+The machine-readable stamp goes into the core document properties (identifier = fingerprint,
+comments = the stamp JSON, content status = draft/final) and is also printed in the last section.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import re
+
+from vetting.memo import charts
+from vetting.memo.document import (
+    BulletList,
+    Callout,
+    Document,
+    Facts,
+    Figure,
+    Paragraph,
+    Section,
+    Table,
+)
+
+TABLE_STYLE = "Light Grid Accent 1"
+_CALLOUT_FILL = {"decision": "E8F4EC", "warning": "FBEDE6", "note": "EAF1F8"}
+_CALLOUT_EDGE = {"decision": "2F8F5B", "warning": "B5542D", "note": "1C5D99"}
+
+# characters XML 1.0 cannot hold: python-docx would refuse them
+_BAD_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
+
+
+def _t(text: str) -> str:
+    return _BAD_XML.sub("\ufffd", str(text))
+
+
+def _shade(cell, fill: str, edge: str | None = None) -> None:
+    from docx.oxml import parse_xml
+    from docx.oxml.ns import nsdecls
+
+    tc_pr = cell._tc.get_or_add_tcPr()
+    tc_pr.append(parse_xml(f'<w:shd {nsdecls("w")} w:val="clear" w:color="auto" w:fill="{fill}"/>'))
+    if edge:
+        tc_pr.append(
+            parse_xml(
+                f'<w:tcBorders {nsdecls("w")}><w:left w:val="single" w:sz="36" w:space="0" w:color="{edge}"/>'
+                '<w:top w:val="nil"/><w:bottom w:val="nil"/><w:right w:val="nil"/></w:tcBorders>'
+            )
+        )
+
+
+def _repeat_header(row) -> None:
+    from docx.oxml import parse_xml
+    from docx.oxml.ns import nsdecls
+
+    row._tr.get_or_add_trPr().append(parse_xml(f'<w:tblHeader {nsdecls("w")}/>'))
+
+
+def _add_table(doc, table: Table) -> None:
+    from docx.enum.text import WD_ALIGN_PARAGRAPH
+    from docx.shared import Pt
+
+    if table.caption:
+        cap = doc.add_paragraph(_t(table.caption), style="Caption")
+        cap.paragraph_format.keep_with_next = True
+    t = doc.add_table(rows=1, cols=len(table.columns))
+    t.style = doc.styles[TABLE_STYLE]
+    t.autofit = True
+    # plain first column: this style would otherwise bold it like a header
+    tbl_look = t._tbl.tblPr.find("{http://schemas.openxmlformats.org/wordprocessingml/2006/main}tblLook")
+    if tbl_look is not None:
+        tbl_look.set("{http://schemas.openxmlformats.org/wordprocessingml/2006/main}firstColumn", "0")
+    hdr = t.rows[0]
+    _repeat_header(hdr)
+    for i, name in enumerate(table.columns):
+        cell = hdr.cells[i]
+        cell.text = _t(name)
+        if i in table.numeric:
+            cell.paragraphs[0].alignment = WD_ALIGN_PARAGRAPH.RIGHT
+    for row in table.rows:
+        cells = t.add_row().cells
+        for i, value in enumerate(row):
+            cells[i].text = _t(value)
+            if i in table.numeric:
+                cells[i].paragraphs[0].alignment = WD_ALIGN_PARAGRAPH.RIGHT
+    for row in t.rows:
+        for cell in row.cells:
+            for p in cell.paragraphs:
+                p.paragraph_format.space_after = Pt(0)
+                for run in p.runs:
+                    run.font.size = Pt(8.5)
+    doc.add_paragraph().paragraph_format.space_after = Pt(2)
+
+
+def _add_block(doc, block) -> None:
+    from docx.shared import Inches, Pt, RGBColor
+
+    if isinstance(block, Paragraph):
+        p = doc.add_paragraph()
+        run = p.add_run(_t(block.text))
+        if block.style == "lead":
+            run.bold = True
+        elif block.style == "small":
+            run.italic = True
+            run.font.size = Pt(8.5)
+            run.font.color.rgb = RGBColor(0x52, 0x60, 0x6D)
+    elif isinstance(block, BulletList):
+        for item in block.items:
+            doc.add_paragraph(_t(item), style="List Bullet")
+    elif isinstance(block, Facts):
+        t = doc.add_table(rows=0, cols=2)
+        for label, value in block.rows:
+            cells = t.add_row().cells
+            cells[0].text = ""
+            cells[0].paragraphs[0].add_run(_t(label)).bold = True
+            cells[1].text = _t(value)
+            for c in cells:
+                c.paragraphs[0].paragraph_format.space_after = Pt(0)
+        t.columns[0].width = Inches(1.9)
+        for row in t.rows:
+            row.cells[0].width = Inches(1.9)
+            row.cells[1].width = Inches(4.6)
+        doc.add_paragraph().paragraph_format.space_after = Pt(2)
+    elif isinstance(block, Table):
+        _add_table(doc, block)
+    elif isinstance(block, Callout):
+        kind = block.kind if block.kind in _CALLOUT_FILL else "note"
+        t = doc.add_table(rows=1, cols=1)
+        cell = t.rows[0].cells[0]
+        _shade(cell, _CALLOUT_FILL[kind], _CALLOUT_EDGE[kind])
+        cell.text = ""
+        cell.paragraphs[0].add_run(_t(block.title)).bold = True
+        for line in block.lines:
+            cell.add_paragraph(_t(line))
+        doc.add_paragraph().paragraph_format.space_after = Pt(2)
+    elif isinstance(block, Figure):
+        png = charts.to_png(block.chart)
+        doc.add_picture(io.BytesIO(png), width=Inches(6.2))
+        doc.paragraphs[-1].paragraph_format.keep_with_next = True
+        doc.add_paragraph(_t(block.caption), style="Caption")
+    else:
+        raise TypeError(f"unknown block {type(block).__name__}")
+
+
+def _add_section(doc, section: Section, level: int) -> None:
+    doc.add_heading(_t(section.title), level=min(level, 9))
+    for block in section.blocks:
+        _add_block(doc, block)
+    for sub in section.subsections:
+        _add_section(doc, sub, level + 1)
+
+
+def _page_field(paragraph) -> None:
+    from docx.oxml import parse_xml
+    from docx.oxml.ns import nsdecls
+
+    run = paragraph.add_run()
+    run._r.append(parse_xml(f'<w:fldChar {nsdecls("w")} w:fldCharType="begin"/>'))
+    run._r.append(parse_xml(f'<w:instrText {nsdecls("w")} xml:space="preserve"> PAGE </w:instrText>'))
+    run._r.append(parse_xml(f'<w:fldChar {nsdecls("w")} w:fldCharType="end"/>'))
+
+
+def render(doc_model: Document) -> bytes:
+    import docx
+    from docx.shared import Cm, Pt, RGBColor
+
+    doc = docx.Document()
+    sec = doc.sections[0]
+    sec.page_height, sec.page_width = Cm(29.7), Cm(21.0)  # A4
+    sec.left_margin = sec.right_margin = Cm(2.0)
+    sec.top_margin = sec.bottom_margin = Cm(1.8)
+
+    normal = doc.styles["Normal"]
+    normal.font.name = "Calibri"
+    normal.font.size = Pt(10)
+    normal.paragraph_format.space_after = Pt(4)
+    for name, size in (("Heading 1", 15), ("Heading 2", 12.5), ("Heading 3", 11), ("Heading 4", 10)):
+        style = doc.styles[name]
+        style.font.size = Pt(size)
+        style.font.color.rgb = RGBColor(0x1C, 0x5D, 0x99)
+        style.paragraph_format.space_before = Pt(12 if name == "Heading 1" else 8)
+        style.paragraph_format.keep_with_next = True
+
+    doc.add_heading(_t(doc_model.title), level=0)
+    doc.add_paragraph(_t(doc_model.subtitle), style="Subtitle")
+    for section in doc_model.sections:
+        _add_section(doc, section, 1)
+
+    footer = sec.footer.paragraphs[0]
+    fp = str(doc_model.stamp.get("fingerprint", ""))
+    run = footer.add_run(_t(f"{doc_model.title} · {doc_model.status} · fingerprint {fp[:16]}… · page "))
+    run.font.size = Pt(7.5)
+    _page_field(footer)
+
+    props = doc.core_properties
+    props.title = _t(doc_model.title)[:255]
+    props.subject = _t(doc_model.subtitle)[:255]
+    props.author = _t(doc_model.author)[:255]
+    props.last_modified_by = _t(doc_model.author)[:255]
+    props.content_status = doc_model.status
+    props.identifier = fp
+    props.keywords = "vetting decision memo"
+    props.comments = json.dumps(doc_model.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    props.revision = 1
+
+    buf = io.BytesIO()
+    doc.save(buf)
+    return buf.getvalue()
+
+
+def read_stamp(data: bytes) -> dict | None:
+    import docx
+
+    doc = docx.Document(io.BytesIO(data))
+    comments = doc.core_properties.comments
+    if not comments:
+        return None
+    return json.loads(comments)

@@ -1,0 +1,96 @@
+"""Markdown rendering of the memo document. Charts become their number tables."""
+
+from __future__ import annotations
+
+import json
+import re
+
+from vetting.memo.document import (
+    BulletList,
+    Callout,
+    Document,
+    Facts,
+    Figure,
+    Paragraph,
+    Section,
+    Table,
+)
+
+#: The last line of every Markdown memo: the machine-readable stamp `vetting verify` reads.
+STAMP_PREFIX = "<!-- vetting-memo-stamp: "
+STAMP_SUFFIX = " -->"
+
+_SPECIAL = re.compile(r"([\\`*_\[\]<>|#~])")
+_LEADING_LIST = re.compile(r"^(\s*)([-+]|\d+[.)])(\s)")
+
+
+def escape(text: str) -> str:
+    """Make user text literal in Markdown: no markup, no raw HTML, one line."""
+    text = " ".join(str(text).split())
+    text = _SPECIAL.sub(r"\\\1", text)
+    return _LEADING_LIST.sub(lambda m: m.group(1) + "\\" + m.group(2) + m.group(3), text)
+
+
+def _table(table: Table) -> list[str]:
+    out: list[str] = []
+    if table.caption:
+        out += [f"*{escape(table.caption)}*", ""]
+    out.append("| " + " | ".join(escape(c) for c in table.columns) + " |")
+    out.append(
+        "|" + "|".join("---:" if i in table.numeric else "---" for i in range(len(table.columns))) + "|"
+    )
+    for row in table.rows:
+        cells = [escape(c) if c != "" else " " for c in row]
+        out.append("| " + " | ".join(cells) + " |")
+    return out + [""]
+
+
+def _block(block) -> list[str]:
+    if isinstance(block, Paragraph):
+        text = escape(block.text)
+        if block.style == "lead":
+            text = f"**{text}**"
+        elif block.style == "small":
+            text = f"*{text}*"
+        return [text, ""]
+    if isinstance(block, BulletList):
+        return [f"- {escape(item)}" for item in block.items] + [""]
+    if isinstance(block, Facts):
+        return [f"- **{escape(label)}:** {escape(value)}" for label, value in block.rows] + [""]
+    if isinstance(block, Table):
+        return _table(block)
+    if isinstance(block, Callout):
+        out = [f"> **{escape(block.title)}**", ">"]
+        for line in block.lines:
+            out += [f"> {escape(line)}", ">"]
+        return out[:-1] + [""]
+    if isinstance(block, Figure):
+        return [f"**Figure:** {escape(block.caption)}", ""] + _table(block.table)
+    raise TypeError(f"unknown block {type(block).__name__}")
+
+
+def _section(section: Section, level: int) -> list[str]:
+    out = ["#" * level + " " + escape(section.title), ""]
+    for block in section.blocks:
+        out += _block(block)
+    for sub in section.subsections:
+        out += _section(sub, level + 1)
+    return out
+
+
+def render(doc: Document) -> str:
+    lines = [f"# {escape(doc.title)}", "", f"*{escape(doc.subtitle)}*", ""]
+    for section in doc.sections:
+        lines += _section(section, 2)
+    stamp = json.dumps(doc.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    # the stamp is JSON of keys and hex digests; '--' cannot occur in it, so the comment is safe
+    lines.append(STAMP_PREFIX + stamp.replace("--", "-\\u002d") + STAMP_SUFFIX)
+    return "\n".join(lines) + "\n"
+
+
+def read_stamp(text: str) -> dict | None:
+    for line in reversed(text.splitlines()):
+        line = line.strip()
+        if line.startswith(STAMP_PREFIX) and line.endswith(STAMP_SUFFIX):
+            return json.loads(line[len(STAMP_PREFIX) : -len(STAMP_SUFFIX)])
+    return None
