@@ -10,7 +10,8 @@ from sqlalchemy import create_engine
 import vetting.records.models as models
 
 target_metadata = models.metadata
-config = context.config
+# None when this module is imported outside an Alembic run (a package walk, a layer test)
+config = getattr(context, "config", None)
 
 
 def _configure(connection) -> None:
@@ -50,7 +51,9 @@ def run_migrations_online() -> None:
     engine.dispose()
 
 
-if context.is_offline_mode():
+if config is None:
+    pass
+elif context.is_offline_mode():
     run_migrations_offline()
 else:
     run_migrations_online()
