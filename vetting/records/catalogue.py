@@ -1,0 +1,694 @@
+"""Catalogue format 1: read, validate and write YAML catalogue files.
+
+Reading happens in three bounded steps, so a hostile file is refused quickly:
+
+1. bytes: size cap (checked before anything is parsed) and strict UTF-8;
+2. events: the file is streamed through PyYAML's safe parser (the C one when present) and a
+   light tree is built without recursion, refusing anchors and aliases (so no alias bomb can
+   expand), documents nested deeper than a catalogue can be, over-long values, unknown tags
+   and more than one document; every node keeps its line number;
+3. rules: the tree is checked field by field against vetting.records.rules (the same rules the
+   editing forms use), collecting every problem (capped) before anything is returned.
+
+Nothing here writes to a database; `parse_catalogue` returns plain domain objects or raises
+`CatalogueError` listing `FILE:LINE: path.to.field: what is wrong and what is allowed`.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import os
+import re
+import tempfile
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from vetting.records import domain as d
+from vetting.records import rules
+from vetting.records.errors import CatalogueError, Problem
+
+__all__ = [
+    "FORMAT_VERSION",
+    "MAX_BYTES",
+    "MAX_DEPTH",
+    "MAX_PROBLEMS",
+    "MAX_SCALAR_CHARS",
+    "dump_catalogue",
+    "load_catalogue",
+    "parse_catalogue",
+    "write_catalogue",
+]
+
+FORMAT_VERSION = 1
+#: Largest file accepted (bytes), checked before parsing. A catalogue of 10,000 fully
+#: documented instruments is about 30 MB.
+MAX_BYTES = 64 * 1024 * 1024
+#: Deepest nesting accepted; format 1 itself needs 7 levels.
+MAX_DEPTH = 20
+#: Longest single value accepted (characters).
+MAX_SCALAR_CHARS = 100_000
+#: Problems reported before giving up on a file.
+MAX_PROBLEMS = 50
+
+_Loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+_Dumper = getattr(yaml, "CSafeDumper", yaml.SafeDumper)
+
+_T = "tag:yaml.org,2002:"
+_ALLOWED_SCALAR_TAGS = {_T + t for t in ("str", "int", "float", "bool", "null", "timestamp")}
+_DATE_RE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+
+
+# ---------------------------------------------------------------------------
+# Step 1 + 2: bytes -> a small tree of nodes with line numbers
+# ---------------------------------------------------------------------------
+
+
+class _Node:
+    """A YAML node: kind 'map' | 'seq' | 'scalar'. Maps hold [(key node, value node)]."""
+
+    __slots__ = ("kind", "tag", "value", "line", "items")
+
+    def __init__(self, kind: str, tag: str, value: str | None, line: int) -> None:
+        self.kind = kind
+        self.tag = tag
+        self.value = value
+        self.line = line
+        self.items: list[Any] | None = [] if kind != "scalar" else None
+
+
+class _Stop(Exception):
+    """Raised inside the reader to abandon a file after a fatal problem."""
+
+    def __init__(self, line: int | None, message: str) -> None:
+        super().__init__(message)
+        self.line = line
+        self.message = message
+
+
+def _decode(data: bytes | str, filename: str) -> str:
+    if isinstance(data, str):
+        if len(data) > MAX_BYTES:
+            raise CatalogueError([Problem(filename, None, "", _too_large(len(data)))])
+        return data
+    if len(data) > MAX_BYTES:
+        raise CatalogueError([Problem(filename, None, "", _too_large(len(data)))])
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise CatalogueError(
+            [
+                Problem(
+                    filename,
+                    line,
+                    "",
+                    f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x} at position {exc.start}); "
+                    "save it as UTF-8",
+                )
+            ]
+        ) from None
+
+
+def _too_large(size: int) -> str:
+    return (
+        f"the file is too large to be a catalogue ({size:,} bytes; at most {MAX_BYTES:,}); "
+        "split it into several files"
+    )
+
+
+def _mark_line(exc: yaml.YAMLError) -> int | None:
+    mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
+    if mark is not None:
+        return mark.line + 1
+    return None
+
+
+def _read_tree(text: str, filename: str) -> _Node | None:
+    """Stream the YAML events into a tree, refusing anything a catalogue never needs."""
+    resolver = yaml.resolver.Resolver()
+    root: _Node | None = None
+    stack: list[_Node] = []
+    documents = 0
+    scalar_event, seq_start, map_start = yaml.ScalarEvent, yaml.SequenceStartEvent, yaml.MappingStartEvent
+    collection_end = (yaml.SequenceEndEvent, yaml.MappingEndEvent)
+    str_tag = _T + "str"
+    resolved: dict[str, str] = {}  # plain scalar -> its implicit tag (same text, same tag)
+    try:
+        for event in yaml.parse(text, Loader=_Loader):
+            cls = type(event)
+            if cls in collection_end:
+                stack.pop()
+                continue
+            line = event.start_mark.line + 1 if event.start_mark is not None else None
+            if cls is yaml.AliasEvent:
+                raise _Stop(line, "YAML aliases (*name) are not allowed in a catalogue; write the value out in full")
+            if getattr(event, "anchor", None) is not None:
+                raise _Stop(line, "YAML anchors (&name) are not allowed in a catalogue; write each value out in full")
+            if cls is yaml.DocumentStartEvent:
+                documents += 1
+                if documents > 1:
+                    raise _Stop(line, "only one YAML document is allowed in a catalogue file (found a second '---')")
+                continue
+            if cls is scalar_event:
+                value = event.value
+                if len(value) > MAX_SCALAR_CHARS:
+                    raise _Stop(line, f"a value is too long ({len(value):,} characters; at most {MAX_SCALAR_CHARS:,})")
+                tag = event.tag
+                if tag is None or tag == "!":
+                    if event.implicit[0]:
+                        tag = resolved.get(value)
+                        if tag is None:
+                            tag = resolver.resolve(yaml.ScalarNode, value, (True, False))
+                            if len(resolved) < 10_000:
+                                resolved[value] = tag
+                    else:
+                        tag = str_tag  # quoted or block text: always a string
+                if tag not in _ALLOWED_SCALAR_TAGS:
+                    if tag == _T + "merge":
+                        raise _Stop(line, "YAML merge keys (<<) are not allowed in a catalogue; write each field out")
+                    raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
+                node = _Node("scalar", tag, value, line or 0)
+            elif cls is seq_start or cls is map_start:
+                kind = "seq" if cls is seq_start else "map"
+                want = _T + kind
+                tag = event.tag
+                if tag not in (None, "!", want):
+                    raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
+                node = _Node(kind, want, None, line or 0)
+            else:
+                continue
+            if stack:
+                parent = stack[-1]
+                if parent.kind == "seq":
+                    parent.items.append(node)
+                elif parent.items and parent.items[-1][1] is None:
+                    parent.items[-1][1] = node
+                else:
+                    parent.items.append([node, None])
+            else:
+                root = node
+            if node.kind != "scalar":
+                stack.append(node)
+                if len(stack) > MAX_DEPTH:
+                    raise _Stop(line, f"the document is nested too deeply (more than {MAX_DEPTH} levels); not a catalogue")
+    except _Stop as stop:
+        raise CatalogueError([Problem(filename, stop.line, "", stop.message)]) from None
+    except yaml.reader.ReaderError as exc:
+        position = max(0, min(int(getattr(exc, "position", 0) or 0), len(text)))
+        line = text.count("\n", 0, position) + 1
+        char = exc.character
+        shown = f"U+{char:04X}" if isinstance(char, int) else repr(char)
+        raise CatalogueError(
+            [Problem(filename, line, "", f"the file contains the character {shown}, which YAML does not allow; remove it")]
+        ) from None
+    except yaml.MarkedYAMLError as exc:
+        what = exc.problem or "not valid YAML"
+        if exc.context:
+            what = f"{exc.context}: {what}"
+        what = " ".join(str(what).split())
+        raise CatalogueError([Problem(filename, _mark_line(exc), "", f"YAML syntax error: {what}")]) from None
+    except yaml.YAMLError as exc:
+        raise CatalogueError(
+            [Problem(filename, _mark_line(exc), "", f"YAML syntax error: {' '.join(str(exc).split())}")]
+        ) from None
+    except (UnicodeError, ValueError) as exc:
+        raise CatalogueError([Problem(filename, None, "", f"cannot read the file as YAML text: {exc}")]) from None
+    return root
+
+
+# ---------------------------------------------------------------------------
+# Step 3: the tree -> checked values -> domain objects
+# ---------------------------------------------------------------------------
+
+_CONSTRUCTOR = yaml.constructor.SafeConstructor()
+_BAD = object()  # a value whose problem has already been reported
+
+_CLASSES: dict[str, type] = {
+    "attribute": d.Attribute,
+    "instrument": d.Instrument,
+    "measure": d.Measure,
+    "reliability": d.Reliability,
+    "validity": d.ValidityStudy,
+    "norm": d.NormGroup,
+    "percentile": d.PercentilePoint,
+    "subgroup_difference": d.SubgroupDifference,
+    "review": d.Review,
+    "sample_copy": d.SampleCopy,
+    "sample_check": d.SampleCheck,
+    "job": d.Job,
+    "requirement": d.Requirement,
+    "policy": d.Policy,
+}
+
+_TEXTUAL_KINDS = {rules.TEXT, "key", "enum", "currency"}
+
+
+def _natural(node: _Node) -> Any:
+    """The value PyYAML's safe loader would give a scalar (raises ValueError when unreadable)."""
+    tag = node.tag
+    if tag == _T + "str":
+        return node.value
+    ynode = yaml.ScalarNode(tag, node.value)
+    return _CONSTRUCTOR.yaml_constructors[tag](_CONSTRUCTOR, ynode)
+
+
+class _Checker:
+    def __init__(self, filename: str, known_attributes: set[str] | frozenset[str]) -> None:
+        self.filename = filename
+        self.known = set(known_attributes)
+        self.problems: list[Problem] = []
+        self.truncated = False
+
+    # -- reporting ---------------------------------------------------------
+    def add(self, line: int | None, path: str, message: str) -> None:
+        if len(self.problems) >= MAX_PROBLEMS:
+            self.truncated = True
+            return
+        self.problems.append(Problem(self.filename, line, path, message))
+
+    # -- scalars -----------------------------------------------------------
+    def scalar(self, node: _Node, rule: rules.Rule, path: str, *, text: bool) -> Any:
+        """A scalar node as a Python value: raw text for textual fields, else as YAML reads it."""
+        if node.kind != "scalar":
+            self.add(node.line, path, f"must be {rules.describe(rule)}; got a {'list' if node.kind == 'seq' else 'mapping'}")
+            return _BAD
+        if node.tag == _T + "null":
+            return None
+        if text:
+            return node.value
+        try:
+            value = _natural(node)
+        except Exception:  # noqa: BLE001 - any unreadable scalar is reported, never raised
+            if node.tag == _T + "timestamp":
+                self.add(node.line, path, f"{node.value!r} is not a valid date (use YYYY-MM-DD)")
+            else:
+                self.add(node.line, path, f"cannot read {node.value[:40]!r} as a number")
+            return _BAD
+        if rule.kind == "date" and isinstance(value, str) and _DATE_RE.match(value):
+            try:
+                value = dt.date.fromisoformat(value)
+            except ValueError:
+                self.add(node.line, path, f"{node.value!r} is not a valid date (use YYYY-MM-DD)")
+                return _BAD
+        return value
+
+    def field_value(self, node: _Node, rule: rules.Rule, path: str) -> Any:
+        kind = rule.kind
+        if kind in ("list-text", "list-enum", "list-language"):
+            if node.kind == "scalar" and node.tag == _T + "null":
+                return None
+            if node.kind != "seq":
+                got = "a mapping" if node.kind == "map" else rules.what_is(self.scalar(node, rule, path, text=False))
+                self.add(node.line, path, f"must be {rules.describe(rule)}, e.g. [a, b]; got {got}")
+                return _BAD
+            values, seen = [], {}
+            for i, item in enumerate(node.items):
+                ipath = f"{path}[{i}]"
+                value = self.scalar(item, rule, ipath, text=item.kind == "scalar" and item.tag != _T + "null")
+                if value is _BAD:
+                    continue
+                problem = rules.check_item(rule, value)
+                if problem:
+                    self.add(item.line, ipath, problem)
+                    continue
+                if value in seen:
+                    self.add(item.line, ipath, f"{value!r} is listed twice (first on line {seen[value]})")
+                    continue
+                seen[value] = item.line
+                values.append(value)
+            return values
+        if kind == "weights":
+            return self.weights(node, rule, path)
+        value = self.scalar(node, rule, path, text=kind in _TEXTUAL_KINDS)
+        if value is _BAD:
+            return _BAD
+        problem = rules.check_value(rule, value)
+        if problem:
+            self.add(node.line, path, problem)
+            return _BAD
+        if kind in ("int", "year"):
+            return int(value)
+        if kind == "number":
+            return float(value)
+        return value
+
+    def weights(self, node: _Node, rule: rules.Rule, path: str) -> Any:
+        if node.kind != "map":
+            got = "a list" if node.kind == "seq" else rules.what_is(self.scalar(node, rule, path, text=False))
+            self.add(node.line, path, f"must be {rules.describe(rule)}; got {got}")
+            return _BAD
+        raw: dict[str, Any] = {}
+        lines: dict[str, int] = {}
+        for key_node, value_node in self.pairs(node, path):
+            name = key_node.value
+            value = self.scalar(value_node, rule, f"{path}.{name}", text=False)
+            if value is _BAD:
+                raw[name] = 0.0  # keep the name so the sum check does not misfire
+                lines[name] = value_node.line
+                continue
+            raw[name] = value
+            lines[name] = value_node.line
+        bad = False
+        for name, message in rules.check_weights(raw):
+            line = lines.get(name, node.line) if name else node.line
+            self.add(line, f"{path}.{name}" if name else path, message)
+            bad = True
+        if bad:
+            return _BAD
+        return {name: float(raw.get(name, 0.0)) for name in d.WEIGHT_NAMES}
+
+    # -- mappings ----------------------------------------------------------
+    def pairs(self, node: _Node, path: str) -> list[tuple[_Node, _Node]]:
+        """Key/value pairs of a mapping with plain keys, reporting duplicate and odd keys."""
+        out = []
+        first: dict[str, int] = {}
+        for key_node, value_node in node.items:
+            if key_node.kind != "scalar" or key_node.tag == _T + "null":
+                self.add(key_node.line, path or "(top)", "field names must be plain words")
+                continue
+            name = key_node.value
+            where = f"{path}.{name}" if path else name
+            if name in first:
+                self.add(key_node.line, where, f"is given twice in the same place (first on line {first[name]})")
+                continue
+            first[name] = key_node.line
+            out.append((key_node, value_node if value_node is not None else _Node("scalar", _T + "null", "", key_node.line)))
+        return out
+
+    def record(self, node: _Node, entity: str, path: str) -> dict[str, Any] | None:
+        """Check one mapping against its entity's rules; returns the values that passed (or None
+        when the node is not a mapping). Problems go to self.problems."""
+        table = rules.ENTITIES[entity]
+        if node.kind != "map":
+            got = "a list" if node.kind == "seq" else rules.what_is(self.scalar(node, rules.Rule("text"), path, text=False))
+            self.add(node.line, path or "(top)", f"must be a mapping of fields ({', '.join(table)}); got {got}")
+            return None
+        values: dict[str, Any] = {}
+        lines: dict[str, int] = {}
+        bad: set[str] = set()
+        for key_node, value_node in self.pairs(node, path):
+            name = key_node.value
+            fpath = f"{path}.{name}" if path else name
+            rule = table.get(name)
+            if rule is None:
+                hint = rules.suggest(name, list(table))
+                if hint:
+                    self.add(key_node.line, fpath, f"unknown field {name[:60]!r}; did you mean {hint!r}?")
+                else:
+                    self.add(key_node.line, fpath, f"unknown field {name[:60]!r} (allowed here: {', '.join(table)})")
+                continue
+            lines[name] = value_node.line
+            is_null = value_node.kind == "scalar" and value_node.tag == _T + "null"
+            if rule.kind == "entity":
+                if is_null:
+                    continue
+                sub = self.record(value_node, rule.entity, fpath)
+                if sub is None:
+                    bad.add(name)
+                else:
+                    values[name] = sub
+                continue
+            if rule.kind == "list-entity":
+                if is_null:
+                    continue
+                if value_node.kind != "seq":
+                    got = "a mapping" if value_node.kind == "map" else rules.what_is(
+                        self.scalar(value_node, rule, fpath, text=False)
+                    )
+                    self.add(value_node.line, fpath, f"must be a list (each item starts with '- '); got {got}")
+                    bad.add(name)
+                    continue
+                items = []
+                for i, item in enumerate(value_node.items):
+                    sub = self.record(item, rule.entity, f"{fpath}[{i}]")
+                    if sub is not None:
+                        sub["__line__"] = item.line
+                        sub["__index__"] = i
+                        items.append(sub)
+                if len(value_node.items) < rule.min_items:
+                    self.add(value_node.line, fpath, f"must list at least {rule.min_items}")
+                    bad.add(name)
+                values[name] = items
+                continue
+            value = self.field_value(value_node, rule, fpath)
+            if value is _BAD:
+                bad.add(name)
+            elif value is not None:
+                values[name] = value
+        for name, rule in table.items():
+            if rule.required and name not in values and name not in bad:
+                fpath = f"{path}.{name}" if path else name
+                if name in lines:
+                    self.add(lines[name], fpath, f"is required ({rules.describe(rule)}) but empty")
+                else:
+                    self.add(node.line, fpath, f"is required ({rules.describe(rule)}) but missing")
+        for rel, message in rules.check_record(entity, values):
+            top = rel.split(".")[0].split("[")[0]
+            line = lines.get(top, node.line)
+            if rel.startswith("table[") and "table" in values:
+                idx = int(rel[len("table[") : rel.index("]")])
+                point = values["table"][idx]
+                line = point["__lines__"].get(rel.rsplit(".", 1)[-1], point["__line__"])
+                rel = f"table[{point['__index__']}]{rel[rel.index(']') + 1:]}"
+            self.add(line, f"{path}.{rel}" if path else rel, message)
+        values["__lines__"] = lines
+        return values
+
+    # -- whole file ----------------------------------------------------------
+    def catalogue(self, root: _Node | None) -> dict[str, Any] | None:
+        if root is None:
+            self.add(1, "", "the file is empty; a catalogue starts with the line 'format: 1'")
+            return None
+        if root.kind != "map":
+            self.add(root.line, "", "a catalogue must be a mapping that starts with 'format: 1'")
+            return None
+        fmt = next((v for k, v in root.items if k.kind == "scalar" and k.value == "format"), None)
+        if fmt is None:
+            self.add(root.line, "format", "is missing: the first line of a catalogue must be 'format: 1'")
+            return None
+        value = self.scalar(fmt, rules.ENTITIES["catalogue"]["format"], "format", text=False) if fmt else None
+        if value is _BAD:
+            return None
+        if isinstance(value, bool) or value != FORMAT_VERSION:
+            shown = fmt.value if fmt.kind == "scalar" else "a list or mapping"
+            self.add(
+                fmt.line, "format",
+                f"unsupported catalogue format {shown!r}; this version of vetting reads format {FORMAT_VERSION}",
+            )
+            return None
+        values = self.record(root, "catalogue", "")
+        if values is None:
+            return None
+        self.cross_checks(values)
+        return values
+
+    def cross_checks(self, values: dict[str, Any]) -> None:
+        def unique(items: list[dict], path: str, what: str) -> None:
+            first: dict[str, int] = {}
+            for item in items:
+                i = item["__index__"]
+                key = item.get("key")
+                line = item["__lines__"].get("key", item["__line__"])
+                if key is None:
+                    continue
+                if key in first:
+                    self.add(line, f"{path}[{i}].key", f"duplicate {what} key {key!r} (first on line {first[key]})")
+                else:
+                    first[key] = line
+
+        attributes = values.get("attributes", [])
+        unique(attributes, "attributes", "attribute")
+        unique(values.get("instruments", []), "instruments", "instrument")
+        unique(values.get("jobs", []), "jobs", "job")
+        declared = {a["key"] for a in attributes if "key" in a} | self.known
+
+        def references(items: list[dict], path: str) -> None:
+            seen: dict[str, int] = {}
+            for item in items:
+                i = item["__index__"]
+                key = item.get("attribute")
+                if key is None:
+                    continue
+                line = item["__lines__"].get("attribute", item["__line__"])
+                ipath = f"{path}[{i}].attribute"
+                if key in seen:
+                    self.add(line, ipath, f"attribute {key!r} is listed twice (first on line {seen[key]})")
+                    continue
+                seen[key] = line
+                if key not in declared:
+                    hint = rules.suggest(key, sorted(declared))
+                    hint_text = f"; did you mean {hint!r}?" if hint else ""
+                    self.add(
+                        line, ipath,
+                        f"attribute {key!r} is not declared{hint_text} "
+                        "(declare it under 'attributes:' in this file, or import it first)",
+                    )
+
+        for inst in values.get("instruments", []):
+            i = inst["__index__"]
+            references(inst.get("measures", []), f"instruments[{i}].measures")
+            unique(inst.get("norms", []), f"instruments[{i}].norms", "norm")
+        for job in values.get("jobs", []):
+            i = job["__index__"]
+            references(job.get("requirements", []), f"jobs[{i}].requirements")
+
+
+def _build(entity: str, values: dict[str, Any]) -> Any:
+    table = rules.ENTITIES[entity]
+    kwargs: dict[str, Any] = {}
+    for name, value in values.items():
+        if name.startswith("__"):
+            continue
+        rule = table[name]
+        if rule.kind == "entity":
+            kwargs[name] = _build(rule.entity, value)
+        elif rule.kind == "list-entity":
+            kwargs[name] = [_build(rule.entity, v) for v in value]
+        else:
+            kwargs[name] = value
+    return _CLASSES[entity](**kwargs)
+
+
+def parse_catalogue(
+    data: bytes | str,
+    filename: str,
+    *,
+    known_attributes: set[str] | frozenset[str] = frozenset(),
+) -> d.Catalogue:
+    """Check a whole catalogue file and return its records; raise CatalogueError listing every
+    problem (`FILE:LINE: path.to.field: message`, at most MAX_PROBLEMS).
+
+    `known_attributes` are attribute keys that already exist (e.g. in the database), so the
+    file may refer to them without declaring them.
+    """
+    text = _decode(data, filename)
+    root = _read_tree(text, filename)
+    checker = _Checker(filename, known_attributes)
+    values = checker.catalogue(root)
+    if checker.problems or values is None:
+        if not checker.problems:  # pragma: no cover - defensive: never return silently broken data
+            checker.add(None, "", "the catalogue could not be read")
+        problems = sorted(checker.problems, key=lambda p: p.line if p.line is not None else 0)
+        raise CatalogueError(problems, truncated=checker.truncated)
+    return d.Catalogue(
+        attributes=[_build("attribute", v) for v in values.get("attributes", [])],
+        instruments=[_build("instrument", v) for v in values.get("instruments", [])],
+        jobs=[_build("job", v) for v in values.get("jobs", [])],
+    )
+
+
+def load_catalogue(
+    path: str | os.PathLike[str],
+    *,
+    known_attributes: set[str] | frozenset[str] = frozenset(),
+) -> d.Catalogue:
+    """Read and check a catalogue file (size checked before reading it all)."""
+    name = str(path)
+    try:
+        size = os.stat(path).st_size
+        if size > MAX_BYTES:
+            raise CatalogueError([Problem(name, None, "", _too_large(size))])
+        with open(path, "rb") as fh:
+            data = fh.read(MAX_BYTES + 1)
+    except CatalogueError:
+        raise
+    except IsADirectoryError:
+        raise CatalogueError([Problem(name, None, "", "is a directory, not a catalogue file")]) from None
+    except FileNotFoundError:
+        raise CatalogueError([Problem(name, None, "", "no such file")]) from None
+    except OSError as exc:
+        raise CatalogueError([Problem(name, None, "", f"cannot read the file: {exc.strerror or exc}")]) from None
+    return parse_catalogue(data, name, known_attributes=known_attributes)
+
+
+# ---------------------------------------------------------------------------
+# Writing
+# ---------------------------------------------------------------------------
+
+
+def _plain(entity: str, obj: Any) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for name, rule in rules.ENTITIES[entity].items():
+        value = getattr(obj, name, None)
+        if value is None:
+            continue
+        kind = rule.kind
+        if kind == "entity":
+            out[name] = _plain(rule.entity, value)
+        elif kind == "list-entity":
+            if value:
+                out[name] = [_plain(rule.entity, v) for v in value]
+        elif kind in ("list-text", "list-enum", "list-language"):
+            if value:
+                out[name] = [str(v) for v in value]
+        elif kind == "weights":
+            out[name] = {k: _number(v) for k, v in value.items()}
+        elif kind in ("int", "year"):
+            out[name] = int(value)
+        elif kind == "number":
+            out[name] = _number(value)
+        elif kind == "bool":
+            out[name] = bool(value)
+        elif kind == "date":
+            out[name] = value.date() if isinstance(value, dt.datetime) else value
+        else:
+            out[name] = str(value)
+    return out
+
+
+def _number(value: Any) -> float | int:
+    number = float(value)
+    if not math.isfinite(number):
+        raise ValueError(f"cannot write the non-finite number {number!r} to a catalogue")
+    if number.is_integer() and abs(number) < 1e15:
+        return int(number)  # reads back as the same float; easier on the eye
+    return number
+
+
+_HEADER = "# vetting catalogue, format 1 (see docs/catalogue-format.md)\n"
+
+
+def dump_catalogue(cat: d.Catalogue) -> str:
+    """The catalogue as format-1 YAML text: stable field order, absent/empty optional fields
+    left out, dates as YYYY-MM-DD. `parse_catalogue(dump_catalogue(c))` equals `c` for every
+    catalogue that passes the rules (database bookkeeping such as row_version is not written)."""
+    doc: dict[str, Any] = {"format": FORMAT_VERSION}
+    if cat.attributes:
+        doc["attributes"] = [_plain("attribute", a) for a in cat.attributes]
+    if cat.instruments:
+        doc["instruments"] = [_plain("instrument", i) for i in cat.instruments]
+    if cat.jobs:
+        doc["jobs"] = [_plain("job", j) for j in cat.jobs]
+    body = yaml.dump(
+        doc,
+        Dumper=_Dumper,
+        sort_keys=False,
+        allow_unicode=True,
+        default_flow_style=False,
+        width=100,
+        indent=2,
+    )
+    return _HEADER + body
+
+
+def write_catalogue(cat: d.Catalogue, path: str | os.PathLike[str]) -> None:
+    """Write the catalogue atomically: a temporary file beside `path`, then os.replace."""
+    text = dump_catalogue(cat)
+    target = Path(path)
+    directory = target.parent if str(target.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
