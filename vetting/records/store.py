@@ -562,7 +562,8 @@ class Store:
             row = self._locked_row(s, m.InstrumentRow, key, _INSTRUMENT_LOAD)
             if row is None:
                 raise NotFound(self._not_found_message(s, "instrument", key))
-            self._check_version(row, row_version, "instrument", key)
+            if row_version is not None:  # None: delete whatever version is stored
+                self._check_version(row, row_version, "instrument", key)
             before = _catalogue_copy(_instrument_from_row(row))
             s.delete(row)
             self._audit(s, "delete", "instrument", key, before, None)
@@ -642,7 +643,8 @@ class Store:
             row = self._locked_row(s, m.JobRow, key, _JOB_LOAD)
             if row is None:
                 raise NotFound(self._not_found_message(s, "job", key))
-            self._check_version(row, row_version, "job", key)
+            if row_version is not None:  # None: delete whatever version is stored
+                self._check_version(row, row_version, "job", key)
             before = _catalogue_copy(_job_from_row(row))
             s.delete(row)
             self._audit(s, "delete", "job", key, before, None)
