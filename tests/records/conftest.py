@@ -19,4 +19,5 @@ def db_url(request, tmp_path):
 
 @pytest.fixture
 def sqlite_url(tmp_path):
-    return f"sqlite:///{tmp_path / 'records.db'}"
+    """A fresh SQLite file, never the same file as `db_url`'s."""
+    return f"sqlite:///{tmp_path / 'main.db'}"
