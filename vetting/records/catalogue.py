@@ -38,7 +38,11 @@ __all__ = [
     "MAX_SCALAR_CHARS",
     "dump_catalogue",
     "load_catalogue",
+    "load_catalogues",
+    "merge_catalogues",
     "parse_catalogue",
+    "parse_catalogues",
+    "read_catalogue_file",
     "write_catalogue",
 ]
 
@@ -564,28 +568,128 @@ def parse_catalogue(
     `known_attributes` are attribute keys that already exist (e.g. in the database), so the
     file may refer to them without declaring them.
     """
-    text = _decode(data, filename)
-    root = _read_tree(text, filename)
-    checker = _Checker(filename, known_attributes)
-    values = checker.catalogue(root)
-    if checker.problems or values is None:
-        if not checker.problems:  # pragma: no cover - defensive: never return silently broken data
-            checker.add(None, "", "the catalogue could not be read")
-        problems = sorted(checker.problems, key=lambda p: p.line if p.line is not None else 0)
-        raise CatalogueError(problems, truncated=checker.truncated)
-    return d.Catalogue(
-        attributes=[_build("attribute", v) for v in values.get("attributes", [])],
-        instruments=[_build("instrument", v) for v in values.get("instruments", [])],
-        jobs=[_build("job", v) for v in values.get("jobs", [])],
-    )
+    return parse_catalogues([(data, filename)], known_attributes=known_attributes)[0]
 
 
-def load_catalogue(
-    path: str | os.PathLike[str],
+def _declared_attribute_keys(root: _Node | None) -> set[str]:
+    """Attribute keys a file declares (looked up before the full check, so files may refer to
+    attributes declared in another file of the same import)."""
+    out: set[str] = set()
+    if root is None or root.kind != "map":
+        return out
+    for key_node, value_node in root.items:
+        if key_node.kind == "scalar" and key_node.value == "attributes" and value_node is not None:
+            if value_node.kind != "seq":
+                continue
+            for item in value_node.items:
+                if item.kind != "map":
+                    continue
+                for k, v in item.items:
+                    if k.kind == "scalar" and k.value == "key" and v is not None and v.kind == "scalar":
+                        out.add(v.value)
+    return out
+
+
+def parse_catalogues(
+    files: list[tuple[bytes | str, str]],
     *,
     known_attributes: set[str] | frozenset[str] = frozenset(),
-) -> d.Catalogue:
-    """Read and check a catalogue file (size checked before reading it all)."""
+) -> list[d.Catalogue]:
+    """Check several catalogue files as one import: `files` is [(data, filename)].
+
+    Attributes declared in any of the files count as declared in all of them. An instrument or
+    job key given in two files, or one attribute key declared differently in two files, is a
+    problem. Raises CatalogueError with the problems of every file (capped), else returns one
+    Catalogue per file.
+    """
+    problems: list[Problem] = []
+    trees: list[tuple[str, _Node | None] | None] = []
+    for data, name in files:
+        try:
+            trees.append((name, _read_tree(_decode(data, name), name)))
+        except CatalogueError as exc:
+            problems.extend(exc.problems)
+            trees.append(None)
+    declared = set(known_attributes)
+    for tree in trees:
+        if tree is not None:
+            declared |= _declared_attribute_keys(tree[1])
+    checked: list[tuple[str, dict[str, Any]]] = []
+    truncated = False
+    for tree in trees:
+        if tree is None:
+            continue
+        name, root = tree
+        checker = _Checker(name, declared)
+        values = checker.catalogue(root)
+        if not checker.problems and values is None:  # pragma: no cover - defensive
+            checker.add(None, "", "the catalogue could not be read")
+        problems.extend(sorted(checker.problems, key=lambda p: p.line if p.line is not None else 0))
+        truncated = truncated or checker.truncated
+        if values is not None:
+            checked.append((name, values))
+    if not problems and len(checked) > 1:
+        problems.extend(_across_files(checked))
+    if problems:
+        raise CatalogueError(problems[:MAX_PROBLEMS], truncated=truncated or len(problems) > MAX_PROBLEMS)
+    return [
+        d.Catalogue(
+            attributes=[_build("attribute", v) for v in values.get("attributes", [])],
+            instruments=[_build("instrument", v) for v in values.get("instruments", [])],
+            jobs=[_build("job", v) for v in values.get("jobs", [])],
+        )
+        for _, values in checked
+    ]
+
+
+def _across_files(checked: list[tuple[str, dict[str, Any]]]) -> list[Problem]:
+    problems: list[Problem] = []
+    for section, what in (("instruments", "instrument"), ("jobs", "job")):
+        first: dict[str, tuple[str, int]] = {}
+        for name, values in checked:
+            for item in values.get(section, []):
+                line = item["__lines__"].get("key", item["__line__"])
+                where = (name, line)
+                if item["key"] in first:
+                    other = first[item["key"]]
+                    problems.append(
+                        Problem(name, line, f"{section}[{item['__index__']}].key",
+                                f"{what} key {item['key']!r} is also in {other[0]}:{other[1]}; give it in one file only")
+                    )
+                else:
+                    first[item["key"]] = where
+    seen: dict[str, tuple[str, int, Any]] = {}
+    for name, values in checked:
+        for item in values.get("attributes", []):
+            built = _build("attribute", item)
+            line = item["__lines__"].get("key", item["__line__"])
+            if built.key in seen and seen[built.key][2] != built:
+                other = seen[built.key]
+                problems.append(
+                    Problem(name, line, f"attributes[{item['__index__']}]",
+                            f"attribute {built.key!r} is declared differently in {other[0]}:{other[1]}; "
+                            "declare it the same way, or in one file only")
+                )
+            seen.setdefault(built.key, (name, line, built))
+    return problems
+
+
+def merge_catalogues(cats: list[d.Catalogue]) -> d.Catalogue:
+    """One catalogue holding every record of `cats` (attributes declared twice alike kept once)."""
+    out = d.Catalogue()
+    keys: set[str] = set()
+    for cat in cats:
+        for attr in cat.attributes:
+            if attr.key not in keys:
+                keys.add(attr.key)
+                out.attributes.append(attr)
+        out.instruments.extend(cat.instruments)
+        out.jobs.extend(cat.jobs)
+    return out
+
+
+def read_catalogue_file(path: str | os.PathLike[str]) -> bytes:
+    """The bytes of a catalogue file, refusing one that is too large before reading it."""
     name = str(path)
     try:
         size = os.stat(path).st_size
@@ -601,7 +705,38 @@ def load_catalogue(
         raise CatalogueError([Problem(name, None, "", "no such file")]) from None
     except OSError as exc:
         raise CatalogueError([Problem(name, None, "", f"cannot read the file: {exc.strerror or exc}")]) from None
-    return parse_catalogue(data, name, known_attributes=known_attributes)
+    return data
+
+
+def load_catalogue(
+    path: str | os.PathLike[str],
+    *,
+    known_attributes: set[str] | frozenset[str] = frozenset(),
+) -> d.Catalogue:
+    """Read and check a catalogue file (size checked before reading it)."""
+    return parse_catalogue(read_catalogue_file(path), str(path), known_attributes=known_attributes)
+
+
+def load_catalogues(
+    paths: list[str | os.PathLike[str]],
+    *,
+    known_attributes: set[str] | frozenset[str] = frozenset(),
+) -> list[d.Catalogue]:
+    """Read and check several files as one import (see parse_catalogues)."""
+    files: list[tuple[bytes | str, str]] = []
+    problems: list[Problem] = []
+    for path in paths:
+        try:
+            files.append((read_catalogue_file(path), str(path)))
+        except CatalogueError as exc:
+            problems.extend(exc.problems)
+    try:
+        cats = parse_catalogues(files, known_attributes=known_attributes)
+    except CatalogueError as exc:
+        problems.extend(exc.problems)
+    if problems:
+        raise CatalogueError(problems[:MAX_PROBLEMS], truncated=len(problems) > MAX_PROBLEMS)
+    return cats
 
 
 # ---------------------------------------------------------------------------
