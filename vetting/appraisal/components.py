@@ -69,7 +69,7 @@ def coverage(job: Job, instrument: Instrument) -> tuple[Component, list[Appraisa
     for m in instrument.measures:
         fits[m.attribute] = max(fits.get(m.attribute, 0.0), FIT_CREDIT.get(m.fit, 0.0))
     total = got = 0.0
-    parts, warnings = [], []
+    parts, warnings, missing_critical = [], [], []
     for req in job.requirements:
         weight = req.importance * (CRITICAL_MULTIPLIER if req.critical else 1.0)
         credit = fits.get(req.attribute, 0.0)
@@ -77,7 +77,10 @@ def coverage(job: Job, instrument: Instrument) -> tuple[Component, list[Appraisa
         got += weight * credit
         parts.append(f"{req.attribute} {credit:g}x{weight:g}")
         if req.critical and credit == 0:
-            warnings.append(_w("critical_attribute_not_measured", f"critical attribute '{req.attribute}' is not measured"))
+            missing_critical.append(req.attribute)
+    if missing_critical:
+        names = ", ".join(f"'{a}'" for a in missing_critical)
+        warnings.append(_w("critical_attribute_not_measured", f"critical attribute(s) not measured: {names}"))
     value = got / total if total > 0 else 0.0
     raw_text = f"{got:g} of {total:g} weighted points ({'; '.join(parts)})"
     return Component("coverage", value, value, raw_text, COVERAGE_MAPPING), warnings
