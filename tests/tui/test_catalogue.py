@@ -1,0 +1,157 @@
+"""The catalogue screen driven with the Pilot: loading, filtering as you type, sorting, opening.
+
+The expected figures are the appraisal engine's own (`summarise`), which the screen must show
+unchanged; what is checked here is that the interface shows, filters and orders them as a
+person would expect (common practice for a catalogue table, no published source)."""
+
+from __future__ import annotations
+
+from textual.widgets import DataTable, Input
+
+from vetting.appraisal.summary import summarise
+from vetting.records.store import Store
+from vetting.tui.screens.catalogue import CatalogueScreen, filter_rows, sort_rows
+
+from .conftest import TODAY
+
+
+def _titles(screen: CatalogueScreen) -> list[str]:
+    return [row.title for row in screen.shown]
+
+
+def _cells(table: DataTable, row: int) -> list[str]:
+    return [str(c) for c in table.get_row_at(row)]
+
+
+async def test_empty_database_lands_on_catalogue_with_a_hint(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, CatalogueScreen)
+        assert screen.loaded and screen.rows == []
+        assert "No instruments yet" in str(screen.query_one("#status").render())
+        assert app.focused is screen.query_one("#filter", Input)
+
+
+async def test_table_shows_the_engine_summary(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(120, 30)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        table = screen.query_one(DataTable)
+        assert table.row_count == 3
+        # sorted by title A to Z on landing
+        assert _titles(screen) == ["Calm Index Inventory", "Ledger Scan Checking Task", "Tally Quick Numbers"]
+        with Store.open(seeded_url) as store:
+            expected = summarise(store.instrument("tally-quick"), TODAY)
+        cells = _cells(table, 2)
+        assert cells[0] == "Tally Quick Numbers"
+        assert cells[1] == f"{expected.minutes:g}"
+        assert cells[3] == f"{expected.best_reliability:.2f}"
+        assert cells[4] == f"{expected.conservative_validity:.2f}"
+        assert cells[5] == f"{expected.norm_age_years} y"
+        assert cells[6] == "12.50 EUR"
+        assert cells[7] == "trained"
+        # no evidence is shown as a dash, never as 0
+        calm = _cells(table, 0)
+        assert calm[3] == "—" and calm[4] == "—" and calm[5] == "—"
+
+
+async def test_typing_filters_by_title_attribute_and_publisher(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press(*"ledger")
+        await pilot.pause(0.3)
+        assert _titles(screen) == ["Ledger Scan Checking Task"]
+        # by attribute name: number sense is measured by two instruments
+        screen.action_clear_filter()
+        await pilot.press(*"number sense")
+        await pilot.pause(0.3)
+        assert _titles(screen) == ["Ledger Scan Checking Task", "Tally Quick Numbers"]
+        # by publisher, case-insensitive
+        screen.action_clear_filter()
+        await pilot.press(*"BROOKFEN")
+        await pilot.pause(0.3)
+        assert _titles(screen) == ["Calm Index Inventory", "Tally Quick Numbers"]
+        assert "2 of 3 instruments" in str(screen.query_one("#count").render())
+        await pilot.press(*"zzz")
+        await pilot.pause(0.3)
+        assert screen.shown == []
+        assert "Nothing matches" in str(screen.query_one("#status").render())
+        await pilot.press("escape")
+        await pilot.pause(0.3)
+        assert len(screen.shown) == 3
+
+
+async def test_typing_in_the_table_goes_to_the_filter(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press("down")  # into the table
+        assert isinstance(app.focused, DataTable)
+        await pilot.press("c", "a", "l", "m")
+        await pilot.pause(0.3)
+        assert screen.query_one("#filter", Input).value == "calm"
+        assert _titles(screen) == ["Calm Index Inventory"]
+
+
+async def test_sort_keys_order_columns_and_keep_missing_last(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press("ctrl+o")  # minutes, shortest first
+        assert screen.sort_column == "minutes"
+        assert _titles(screen) == ["Calm Index Inventory", "Tally Quick Numbers", "Ledger Scan Checking Task"]
+        await pilot.press("ctrl+r")
+        assert _titles(screen) == ["Ledger Scan Checking Task", "Tally Quick Numbers", "Calm Index Inventory"]
+        screen.set_sort("reliability")  # best first; the instrument with none stays last
+        assert _titles(screen)[-1] == "Calm Index Inventory"
+        assert _titles(screen)[0] == "Tally Quick Numbers"
+        screen.set_sort("reliability", reverse=True)
+        assert _titles(screen)[-1] == "Calm Index Inventory"
+        assert "▲" in str(screen.query_one(DataTable).columns["reliability"].label)
+
+
+async def test_enter_opens_the_highlighted_instrument(seeded_url, app_for, settle):
+    from vetting.tui.screens.instrument import InstrumentEditor
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press(*"ledger", "enter")  # Enter in the filter moves to the table
+        await pilot.pause(0.3)
+        await pilot.press("enter")
+        await settle(pilot)
+        assert isinstance(app.screen, InstrumentEditor)
+        assert app.screen.original.key == "ledger-scan"
+
+
+def test_filter_and_sort_helpers_on_many_rows():
+    """Filtering is a plain in-memory scan; every word must appear somewhere in the row."""
+    from vetting.appraisal.types import InstrumentSummary
+    from vetting.tui.data import CatalogueRow
+
+    def row(i: int, minutes: float | None) -> CatalogueRow:
+        summary = InstrumentSummary(
+            key=f"k{i}", title=f"T{i}", publisher=None, attributes=[], minutes=minutes or 1,
+            reading_grade=None, cost_per_applicant=None, currency=None, qualification=None,
+            best_reliability=None if i % 3 == 0 else i / 1000, best_reliability_type=None,
+            conservative_validity=None, validity_k=0, validity_n=0, norm_age_years=None, norm_groups=0,
+            has_subgroup_data=False, sample_copy_checked=False,
+        )
+        return CatalogueRow(f"k{i}", f"T{i}", "", [], summary, haystack=f"t{i} alpha{'-beta' if i % 2 else ''}")
+
+    rows = [row(i, i) for i in range(1, 501)]
+    assert len(filter_rows(rows, "alpha beta")) == 250
+    assert len(filter_rows(rows, "  ")) == 500
+    ordered = sort_rows(rows, "reliability", False)
+    present = [r for r in ordered if r.summary.best_reliability is not None]
+    assert ordered[: len(present)] == present
+    assert [r.summary.best_reliability for r in present] == sorted(
+        (r.summary.best_reliability for r in present), reverse=True
+    )

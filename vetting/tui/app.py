@@ -1,0 +1,268 @@
+"""The terminal workspace: the app shell, its global keys, navigation and command palette.
+
+`make_app(url)` builds the app for a database URL (tests inject a temporary SQLite URL and a
+fixed date); `run_app(url)` runs it and returns an exit status.
+
+Screens are reached by name with `VettingApp.go(name)`:
+
+* "catalogue" (the landing screen), "jobs", "help" live in this package;
+* "compare", "plan", "gaps", "memo" are results screens written separately. Each is looked up
+  lazily as ``vetting.tui.screens.<name>.<Name>Screen`` (CompareScreen, PlanScreen, GapsScreen,
+  MemoScreen), constructed as ``Screen(store_url: str, job_key: str | None = None)``. Until a
+  module exists the key says so instead of failing.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import importlib
+from collections.abc import Callable, Iterable
+from functools import partial
+
+from textual import events
+from textual.app import App, SystemCommand
+from textual.binding import Binding
+from textual.command import DiscoveryHit, Hit, Hits, Provider
+from textual.screen import Screen
+
+from vetting.tui.data import Data
+
+#: Results screens provided by other modules: name -> (module, class name).
+RESULT_SCREENS: dict[str, tuple[str, str]] = {
+    "compare": ("vetting.tui.screens.compare", "CompareScreen"),
+    "plan": ("vetting.tui.screens.plan", "PlanScreen"),
+    "gaps": ("vetting.tui.screens.gaps", "GapsScreen"),
+    "memo": ("vetting.tui.screens.memo", "MemoScreen"),
+}
+
+#: Every screen name reachable with `go`, in the order of their keys.
+SCREEN_NAMES = ("catalogue", "jobs", *RESULT_SCREENS, "help")
+
+DARK_THEME = "textual-dark"
+LIGHT_THEME = "textual-light"
+
+
+def result_screen_class(name: str) -> type[Screen] | None:
+    """The results screen class for `name`, or None when its module is not there yet."""
+    module_name, class_name = RESULT_SCREENS[name]
+    try:
+        module = importlib.import_module(module_name)
+    except ModuleNotFoundError as exc:
+        if exc.name == module_name:
+            return None
+        raise
+    return getattr(module, class_name, None)
+
+
+class ActionsProvider(Provider):
+    """Lists every action: the app's keys and those of the screen the palette was opened on.
+
+    Built from the bindings themselves, so the palette and the keys cannot drift apart.
+    """
+
+    def _commands(self) -> list[tuple[str, str, Callable[[], object]]]:
+        app = self.app
+        found: list[tuple[str, str, Callable[[], object]]] = []
+        seen: set[str] = set()
+        screen = self.screen
+        for owner, bindings in ((screen, type(screen).BINDINGS), (app, type(app).BINDINGS)):
+            for binding in bindings:
+                if not isinstance(binding, Binding) or not binding.description:
+                    continue
+                if binding.action in seen or binding.action.startswith("command_palette"):
+                    continue
+                seen.add(binding.action)
+                key = app.get_key_display(binding)
+                title = binding.description
+                help_text = f"key {key}" + (f" - {binding.tooltip}" if binding.tooltip else "")
+                found.append((title, help_text, partial(owner.run_action, binding.action)))
+        return found
+
+    async def discover(self) -> Hits:
+        for title, help_text, command in self._commands():
+            yield DiscoveryHit(title, command, help=help_text)
+
+    async def search(self, query: str) -> Hits:
+        matcher = self.matcher(query)
+        for title, help_text, command in self._commands():
+            score = matcher.match(title)
+            if score > 0:
+                yield Hit(score, matcher.highlight(title), command, text=title, help=help_text)
+
+
+class VettingApp(App[int]):
+    """The vetting workspace."""
+
+    TITLE = "vetting"
+    SUB_TITLE = "choose and defend employment tests"
+    CSS_PATH = "app.tcss"
+    COMMANDS = App.COMMANDS | {ActionsProvider}
+
+    BINDINGS = [
+        Binding("f1", "go('help')", "Keys", show=False, id="go.help", tooltip="Every key on every screen"),
+        Binding("f2", "go('catalogue')", "Catalogue", show=False, id="go.catalogue", tooltip="All instruments"),
+        Binding("f3", "go('jobs')", "Jobs", show=False, id="go.jobs", tooltip="Job profiles and policies"),
+        Binding("f4", "go('compare')", "Compare", show=False, id="go.compare", tooltip="Ranking for the current job"),
+        Binding("f5", "go('plan')", "Plan", show=False, id="go.plan", tooltip="Cut-score planner"),
+        Binding("f6", "go('gaps')", "Gaps", show=False, id="go.gaps", tooltip="Evidence still missing"),
+        Binding("f7", "go('memo')", "Memo", show=False, id="go.memo", tooltip="Decision memo and export"),
+        Binding("f8", "flip_theme", "Light/dark", show=False, id="app.theme", tooltip="Switch light and dark colours"),
+        Binding("ctrl+q", "leave_app", "Quit", id="app.quit", priority=True, tooltip="Quit (asks if unsaved)"),
+    ]
+
+    def __init__(
+        self, url: str, *, today: dt.date | None = None, data: Data | None = None, cursor_blink: bool = True
+    ) -> None:
+        super().__init__()
+        self.url = url
+        #: False keeps text cursors steady (tests and screenshots)
+        self.cursor_blink = cursor_blink
+        self.today = today
+        self.data = data or Data(url, today=today)
+        #: the job the results screens work on (set by the Jobs screen)
+        self.current_job: str | None = None
+        self.theme = DARK_THEME
+
+    # -- lifecycle ---------------------------------------------------------------------------
+
+    def on_mount(self) -> None:
+        from vetting.tui.screens.catalogue import CatalogueScreen
+
+        self.push_screen(CatalogueScreen())
+
+    def on_descendant_focus(self, event: events.DescendantFocus) -> None:
+        if not self.cursor_blink and hasattr(event.widget, "cursor_blink"):
+            event.widget.cursor_blink = False
+
+    def on_unmount(self) -> None:
+        self.data.close()
+
+    def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
+        # The ActionsProvider lists our own actions; keep only Textual's non-duplicated extras.
+        for command in super().get_system_commands(screen):
+            if command.title.lower() in {"quit", "keys", "theme"}:
+                continue
+            yield command
+
+    # -- leaving with unsaved work -----------------------------------------------------------
+
+    def unsaved_screens(self) -> list[Screen]:
+        return [s for s in self.screen_stack if getattr(s, "is_dirty", lambda: False)()]
+
+    def after_confirming(self, then: Callable[[], object]) -> None:
+        """Run `then` now, or after the user agrees to drop unsaved changes."""
+        dirty = self.unsaved_screens()
+        if not dirty:
+            then()
+            return
+        from vetting.tui.widgets.confirm import Confirm
+
+        names = ", ".join(getattr(s, "record_label", "this record") for s in dirty)
+        question = f"Unsaved changes in {names}.\nLeave without saving them?"
+
+        def answered(leave: bool | None) -> None:
+            if leave:
+                for screen in dirty:
+                    getattr(screen, "discard", lambda: None)()
+                then()
+
+        self.push_screen(Confirm(question, yes="Leave (y)", no="Stay (n)"), answered)
+
+    def action_leave_app(self) -> None:
+        if isinstance(self.screen, _modal_types()):
+            return
+        self.after_confirming(lambda: self.exit(0))
+
+    # -- navigation --------------------------------------------------------------------------
+
+    def action_go(self, name: str) -> None:
+        self.go(name)
+
+    def go(self, name: str, **kwargs: object) -> None:
+        """Show the screen called `name` (asks first if an editor holds unsaved changes)."""
+        if name not in SCREEN_NAMES:
+            raise ValueError(f"unknown screen {name!r}")
+        if isinstance(self.screen, _modal_types()):
+            return
+        if getattr(self.screen, "screen_name", None) == name and not kwargs:
+            return
+        if name == "help":  # help sits on top of whatever is open; nothing is lost
+            from vetting.tui.screens.help import HelpScreen
+
+            self.push_screen(HelpScreen())
+            return
+        if name == "catalogue":
+            self.after_confirming(self._to_catalogue)
+            return
+        screen = self._build(name, **kwargs)
+        if screen is None:
+            return
+        self.after_confirming(partial(self._show_base, screen))
+
+    def _build(self, name: str, **kwargs: object) -> Screen | None:
+        if name == "jobs":
+            from vetting.tui.screens.job import JobsScreen
+
+            return JobsScreen()
+        cls = result_screen_class(name)
+        if cls is None:
+            self.notify(f"The {name} screen is not installed in this build.", title=name.title(), severity="warning")
+            return None
+        job = kwargs.get("job_key", self.current_job)
+        if job is None:
+            self.notify("Choose a job first: F3 Jobs, then Enter on a job.", title=name.title(), severity="warning")
+            return None
+        screen = cls(self.url, job)
+        screen.screen_name = name  # type: ignore[attr-defined]
+        return screen
+
+    def _to_catalogue(self) -> None:
+        """Drop everything above the catalogue (the bottom screen of ours)."""
+        while len(self.screen_stack) > 2:
+            self.pop_screen()
+
+    def _show_base(self, screen: Screen) -> None:
+        """Drop everything above the catalogue, then show `screen` on top of it."""
+        self._to_catalogue()
+        self.push_screen(screen)
+
+    def open_instrument(self, key: str | None) -> None:
+        """Open the instrument editor on `key` (None: a new instrument)."""
+        from vetting.tui.screens.instrument import InstrumentEditor
+
+        self.push_screen(InstrumentEditor(key))
+
+    def open_job(self, key: str | None) -> None:
+        from vetting.tui.screens.job import JobEditor
+
+        self.push_screen(JobEditor(key))
+
+    # -- looks -------------------------------------------------------------------------------
+
+    def action_flip_theme(self) -> None:
+        self.theme = LIGHT_THEME if self.theme == DARK_THEME else DARK_THEME
+
+
+def _modal_types() -> tuple[type, ...]:
+    from textual.command import CommandPalette
+    from textual.screen import ModalScreen
+
+    return (ModalScreen, CommandPalette)
+
+
+def make_app(url: str, *, today: dt.date | None = None, cursor_blink: bool = True) -> VettingApp:
+    """Build the app for the database at `url`.
+
+    Tests pass a temporary SQLite URL, a fixed `today` (figures such as norm age depend on
+    it) and `cursor_blink=False` so screenshots are stable.
+    """
+    return VettingApp(url, today=today, cursor_blink=cursor_blink)
+
+
+def run_app(url: str) -> int:
+    """Run the workspace on the database at `url`; returns the exit status."""
+    app = make_app(url)
+    result = app.run()
+    if app.return_code not in (None, 0):
+        return int(app.return_code)
+    return int(result or 0)

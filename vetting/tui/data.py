@@ -1,0 +1,153 @@
+"""A thin adapter between the screens and the records Store.
+
+Every method here may block (it talks to the database), so screens call it only from thread
+workers. It hands back the plain domain objects of `vetting.records.domain` and the engine's
+summaries; it does no arithmetic of its own. Heavy modules (SQLAlchemy, Alembic, the appraisal
+engine) are imported on first use, inside the worker, so the first screen appears at once.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import threading
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, Callable
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from vetting.records.domain import Attribute, Instrument, Job, Policy
+
+
+@dataclass
+class CatalogueRow:
+    """One line of the catalogue table: the instrument's identity and the engine's summary."""
+
+    key: str
+    title: str
+    publisher: str
+    attributes: list[str]
+    summary: Any  # vetting.appraisal.types.InstrumentSummary
+    #: lowercase text searched by the filter (title, key, attribute keys and names, publisher)
+    haystack: str = ""
+
+
+def _summariser() -> Callable[[Any, dt.date], Any]:
+    """The engine's `summarise(instrument, as_of)`, wherever the appraisal package exports it."""
+    import importlib
+
+    for name in ("vetting.appraisal", "vetting.appraisal.summary", "vetting.appraisal.types"):
+        try:
+            module = importlib.import_module(name)
+        except ModuleNotFoundError:
+            continue
+        function = getattr(module, "summarise", None)
+        if function is not None:
+            return function
+    raise RuntimeError("the appraisal engine has no summarise(instrument, as_of)")
+
+
+def _row(inst: Instrument, summary: Any, names: dict[str, str]) -> CatalogueRow:
+    attrs = inst.attribute_keys()
+    hay = " ".join([inst.title, inst.key, inst.publisher or ""] + attrs + [names.get(a, "") for a in attrs])
+    return CatalogueRow(
+        key=inst.key,
+        title=inst.title,
+        publisher=inst.publisher or "",
+        attributes=attrs,
+        summary=summary,
+        haystack=hay.lower(),
+    )
+
+
+class Data:
+    """Opens the Store lazily (once) and serves the screens. Safe to call from worker threads."""
+
+    def __init__(self, url: str, *, today: dt.date | None = None) -> None:
+        self.url = url
+        self.today = today
+        self._store = None
+        self._lock = threading.Lock()
+
+    # -- connection ----------------------------------------------------------------------------
+
+    @property
+    def store(self):
+        with self._lock:
+            if self._store is None:
+                from vetting.records.store import Store
+
+                self._store = Store.open(self.url)
+            return self._store
+
+    def close(self) -> None:
+        with self._lock:
+            if self._store is not None:
+                self._store.close()
+                self._store = None
+
+    def as_of(self) -> dt.date:
+        return self.today or dt.date.today()
+
+    # -- catalogue -----------------------------------------------------------------------------
+
+    def catalogue_rows(
+        self, progress: Callable[[int, int], None] | None = None, cancelled: Callable[[], bool] | None = None
+    ) -> list[CatalogueRow]:
+        """Every instrument with its summary from the appraisal engine."""
+        summarise = _summariser()
+        store = self.store
+        names = {a.key: a.name for a in store.attributes()}
+        instruments = store.instruments()
+        as_of = self.as_of()
+        rows: list[CatalogueRow] = []
+        total = len(instruments)
+        if progress is not None:
+            progress(0, total)
+        for index, inst in enumerate(instruments, start=1):
+            if cancelled is not None and index % 200 == 0 and cancelled():
+                break
+            rows.append(_row(inst, summarise(inst, as_of), names))
+            if progress is not None and (index % 250 == 0 or index == total):
+                progress(index, total)
+        return rows
+
+    def catalogue_row(self, key: str) -> CatalogueRow:
+        """The table row of one instrument (after it was saved)."""
+        store = self.store
+        names = {a.key: a.name for a in store.attributes()}
+        inst = store.instrument(key)
+        return _row(inst, _summariser()(inst, self.as_of()), names)
+
+    # -- single records ------------------------------------------------------------------------
+
+    def instrument(self, key: str) -> Instrument:
+        return self.store.instrument(key)
+
+    def save_instrument(self, inst: Instrument) -> Instrument:
+        return self.store.save_instrument(inst)
+
+    def delete_instrument(self, key: str, row_version: int | None) -> None:
+        self.store.delete_instrument(key, row_version=row_version)
+
+    def attributes(self) -> list[Attribute]:
+        return self.store.attributes()
+
+    def save_attribute(self, attr: Attribute) -> None:
+        self.store.save_attribute(attr)
+
+    def jobs(self) -> list[Job]:
+        return self.store.jobs()
+
+    def job(self, key: str) -> Job:
+        return self.store.job(key)
+
+    def save_job(self, job: Job) -> Job:
+        return self.store.save_job(job)
+
+    def policy_versions(self, job_key: str) -> list[Policy]:
+        return self.store.policy_versions(job_key)
+
+    def set_policy(self, job_key: str, policy: Policy) -> Policy:
+        return self.store.set_policy(job_key, policy)
+
+    def lock_policy(self, job_key: str) -> Policy:
+        return self.store.lock_policy(job_key)

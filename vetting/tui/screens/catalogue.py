@@ -1,0 +1,350 @@
+"""The landing screen: every instrument in one sortable table, filtered as you type.
+
+The figures in the table come from the appraisal engine's `summarise(instrument, as_of)`;
+this screen only formats them. Loading runs in a thread worker so the screen is usable at
+once; filtering works in memory on a lowercase text built once per row.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable
+
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal
+from textual.events import Key
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static
+from textual.worker import get_current_worker
+
+from vetting.tui.data import CatalogueRow
+from vetting.tui.widgets.navbar import NavBar
+
+NO_VALUE = "—"  # shown where the record holds no evidence for a figure
+
+
+def _num(value: float | None, digits: int = 2) -> str:
+    return NO_VALUE if value is None else f"{value:.{digits}f}"
+
+
+def _plain(value: float | None) -> str:
+    if value is None:
+        return NO_VALUE
+    return f"{value:g}"
+
+
+def _cost(summary: Any) -> str:
+    if summary.cost_per_applicant is None:
+        return NO_VALUE
+    text = f"{summary.cost_per_applicant:.2f}"
+    return f"{text} {summary.currency}" if summary.currency else text
+
+
+def _age(value: int | None) -> str:
+    return NO_VALUE if value is None else f"{value} y"
+
+
+_QUAL_ORDER = {"open": 0, "trained": 1, "licensed": 2}
+
+
+@dataclass(frozen=True)
+class Column:
+    id: str
+    label: str
+    width: int
+    cell: Callable[[CatalogueRow], str]
+    sort_value: Callable[[CatalogueRow], Any]
+    #: True when a larger figure is better, so the first sort puts it on top
+    high_first: bool = False
+    right: bool = True
+
+
+COLUMNS: tuple[Column, ...] = (
+    Column("title", "Title", 0, lambda r: r.title, lambda r: r.title.lower(), right=False),
+    Column("minutes", "Min", 5, lambda r: _plain(r.summary.minutes), lambda r: r.summary.minutes),
+    Column("grade", "Read", 5, lambda r: _plain(r.summary.reading_grade), lambda r: r.summary.reading_grade),
+    Column(
+        "reliability", "Rel", 5, lambda r: _num(r.summary.best_reliability),
+        lambda r: r.summary.best_reliability, high_first=True,
+    ),
+    Column(
+        "validity", "Valid", 5, lambda r: _num(r.summary.conservative_validity),
+        lambda r: r.summary.conservative_validity, high_first=True,
+    ),
+    Column("norm_age", "Norms", 6, lambda r: _age(r.summary.norm_age_years), lambda r: r.summary.norm_age_years),
+    Column("cost", "Cost", 10, lambda r: _cost(r.summary), lambda r: r.summary.cost_per_applicant),
+    Column(
+        "qualification", "User", 8, lambda r: r.summary.qualification or NO_VALUE,
+        lambda r: _QUAL_ORDER.get(r.summary.qualification or "", None), right=False,
+    ),
+)
+COLUMN_IDS = tuple(c.id for c in COLUMNS)
+_BY_ID = {c.id: c for c in COLUMNS}
+#: the title column takes what is left of the width, within these bounds
+TITLE_MIN, TITLE_MAX = 16, 60
+
+
+def sort_rows(rows: list[CatalogueRow], column: str, reverse: bool) -> list[CatalogueRow]:
+    """Rows ordered by `column`; records without that figure always go last."""
+    col = _BY_ID[column]
+    present = [r for r in rows if col.sort_value(r) is not None]
+    missing = [r for r in rows if col.sort_value(r) is None]
+    descending = col.high_first != reverse
+    present.sort(key=lambda r: (col.sort_value(r), r.title.lower()), reverse=descending)
+    return present + missing
+
+
+def filter_rows(rows: list[CatalogueRow], text: str) -> list[CatalogueRow]:
+    """Rows whose title, key, attributes or publisher contain every word typed."""
+    words = text.lower().split()
+    if not words:
+        return rows
+    return [r for r in rows if all(w in r.haystack for w in words)]
+
+
+class CatalogueScreen(Screen):
+    """All instruments; Enter opens one in the editor."""
+
+    screen_name = "catalogue"
+    CSS_PATH = "catalogue.tcss"
+    AUTO_FOCUS = "#filter"
+
+    BINDINGS = [
+        Binding("ctrl+n", "new_instrument", "New", id="catalogue.new", tooltip="Add an instrument by hand"),
+        Binding("enter", "open_selected", "Open", id="catalogue.open", tooltip="Edit the highlighted instrument"),
+        Binding("ctrl+o", "next_sort", "Sort by", id="catalogue.sort", tooltip="Sort by the next column"),
+        Binding("ctrl+r", "flip_sort", "Reverse", id="catalogue.reverse", tooltip="Reverse the sort order"),
+        Binding("ctrl+l", "reload", "Reload", id="catalogue.reload", tooltip="Read the catalogue again"),
+        Binding("escape", "clear_filter", "Clear filter", show=False, id="catalogue.clear",
+                tooltip="Empty the filter box"),
+        Binding("down", "to_table", "To table", show=False, id="catalogue.down", tooltip="Move into the table"),
+    ]
+
+    DEBOUNCE_SECONDS = 0.08
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.rows: list[CatalogueRow] = []
+        self.shown: list[CatalogueRow] = []
+        self.sort_column = "title"
+        self.sort_reverse = False
+        self.loaded = False
+        self._filter_timer = None
+        self._ordered: list[CatalogueRow] = []
+        self._keys: list[str] = []
+
+    def compose(self) -> ComposeResult:
+        yield NavBar("catalogue")
+        with Horizontal(id="top"):
+            yield Static("Catalogue", id="heading", classes="title-bar")
+            yield Static("opening the database…", id="count", classes="title-bar")
+        yield Input(placeholder="type to filter: title, attribute or publisher", id="filter", select_on_focus=False)
+        yield DataTable(id="table", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="status", classes="status-line")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self._build_columns()
+        self.load()
+
+    # -- loading -----------------------------------------------------------------------------
+
+    def _build_columns(self) -> None:
+        table = self.query_one(DataTable)
+        fixed = sum(c.width + 2 for c in COLUMNS[1:])
+        title_width = max(TITLE_MIN, min(TITLE_MAX, self.app.size.width - fixed - 4))
+        for col in COLUMNS:
+            label = col.label + self._arrow(col.id)
+            table.add_column(label, key=col.id, width=col.width or title_width)
+
+    def _arrow(self, column: str) -> str:
+        if column != self.sort_column:
+            return ""
+        descending = _BY_ID[column].high_first != self.sort_reverse
+        return " ▼" if descending else " ▲"
+
+    @work(thread=True, exclusive=True, group="catalogue-load")
+    def load(self) -> None:
+        worker = get_current_worker()
+
+        def progress(done: int, total: int) -> None:
+            self.app.call_from_thread(self._show_progress, done, total)
+
+        try:
+            rows = self.app.data.catalogue_rows(progress=progress, cancelled=lambda: worker.is_cancelled)
+        except Exception as exc:  # shown to the user; the screen stays usable
+            self.app.call_from_thread(self._load_failed, exc)
+            return
+        if not worker.is_cancelled:
+            self.app.call_from_thread(self._loaded, rows)
+
+    def _show_progress(self, done: int, total: int) -> None:
+        self.query_one("#count", Static).update(f"loading {done:,} of {total:,}…")
+
+    def _load_failed(self, exc: Exception) -> None:
+        self.query_one("#count", Static).update("not loaded")
+        self.query_one("#status", Static).update(f"✗ Could not read the catalogue: {exc}")
+        self.notify(str(exc), title="Catalogue not loaded", severity="error", timeout=10)
+
+    def _loaded(self, rows: list[CatalogueRow]) -> None:
+        self.rows = rows
+        self.loaded = True
+        self._resort()
+        self._apply_filter()
+
+    # -- filtering and sorting ---------------------------------------------------------------
+
+    @on(Input.Changed, "#filter")
+    def _filter_changed(self, event: Input.Changed) -> None:
+        if self._filter_timer is not None:
+            self._filter_timer.stop()
+        self._filter_timer = self.set_timer(self.DEBOUNCE_SECONDS, self._apply_filter)
+
+    def _resort(self) -> None:
+        self._ordered = sort_rows(self.rows, self.sort_column, self.sort_reverse)
+
+    def _apply_filter(self) -> None:
+        self._filter_timer = None
+        text = self.query_one("#filter", Input).value
+        shown = filter_rows(self._ordered, text)
+        self._fill(shown)
+
+    def _fill(self, shown: list[CatalogueRow]) -> None:
+        table = self.query_one(DataTable)
+        keep = self._keys[table.cursor_row] if 0 <= table.cursor_row < len(self._keys) else None
+        self.shown = shown
+        table.clear()
+        table.add_rows(
+            ([c.cell(r) for c in COLUMNS] for r in shown),
+        )
+        # add_rows cannot take keys; give each row its instrument key
+        self._keys = [r.key for r in shown]
+        if keep in self._keys:
+            table.move_cursor(row=self._keys.index(keep), animate=False)
+        self._update_counts()
+
+    def _update_counts(self) -> None:
+        total = len(self.rows)
+        shown = len(self.shown)
+        count = f"{shown:,} of {total:,} instruments" if shown != total else f"{total:,} instruments"
+        self.query_one("#count", Static).update(count)
+        col = _BY_ID[self.sort_column]
+        order = "highest first" if (col.high_first != self.sort_reverse) else "lowest first"
+        if col.id == "title":
+            order = "Z to A" if self.sort_reverse else "A to Z"
+        status = f"sorted by {col.label.lower()} ({order}) · {NO_VALUE} = no evidence on record"
+        if not total:
+            status = "No instruments yet. Press ctrl+n to add one, or import a catalogue file."
+        elif not shown:
+            status = "Nothing matches the filter. Escape clears it."
+        self.query_one("#status", Static).update(status)
+
+    def _relabel(self) -> None:
+        table = self.query_one(DataTable)
+        for col in COLUMNS:
+            table.columns[col.id].label = Text(col.label + self._arrow(col.id))
+        table.refresh()
+
+    def set_sort(self, column: str, reverse: bool = False) -> None:
+        self.sort_column = column
+        self.sort_reverse = reverse
+        self._relabel()
+        self._resort()
+        self._apply_filter()
+
+    def action_next_sort(self) -> None:
+        index = (COLUMN_IDS.index(self.sort_column) + 1) % len(COLUMN_IDS)
+        self.set_sort(COLUMN_IDS[index])
+
+    def action_flip_sort(self) -> None:
+        self.set_sort(self.sort_column, not self.sort_reverse)
+
+    @on(DataTable.HeaderSelected)
+    def _header(self, event: DataTable.HeaderSelected) -> None:
+        column = str(event.column_key.value)
+        if column == self.sort_column:
+            self.action_flip_sort()
+        else:
+            self.set_sort(column)
+
+    def action_clear_filter(self) -> None:
+        box = self.query_one("#filter", Input)
+        box.value = ""
+        box.focus()
+
+    def action_to_table(self) -> None:
+        self.query_one(DataTable).focus()
+
+    def action_reload(self) -> None:
+        self.query_one("#count", Static).update("reloading…")
+        self.load()
+
+    # -- type-to-filter from the table -------------------------------------------------------
+
+    def on_key(self, event: Key) -> None:
+        table = self.query_one(DataTable)
+        if self.focused is table and event.is_printable and event.character:
+            box = self.query_one("#filter", Input)
+            box.value = box.value + event.character
+            box.cursor_position = len(box.value)
+            box.focus()
+            event.stop()
+            event.prevent_default()
+
+    # -- opening -----------------------------------------------------------------------------
+
+    def selected_key(self) -> str | None:
+        table = self.query_one(DataTable)
+        if not self.shown or table.cursor_row < 0 or table.cursor_row >= len(self._keys):
+            return None
+        return self._keys[table.cursor_row]
+
+    def action_open_selected(self) -> None:
+        key = self.selected_key()
+        if key is None:
+            self.notify("No instrument is highlighted.", severity="warning")
+            return
+        self.app.open_instrument(key)
+
+    @on(DataTable.RowSelected)
+    def _row_selected(self, event: DataTable.RowSelected) -> None:
+        event.stop()
+        self.action_open_selected()
+
+    @on(Input.Submitted, "#filter")
+    def _filter_submitted(self, event: Input.Submitted) -> None:
+        if self.shown:
+            self.query_one(DataTable).focus()
+
+    def action_new_instrument(self) -> None:
+        self.app.open_instrument(None)
+
+    # -- after an edit -----------------------------------------------------------------------
+
+    def record_saved(self, key: str) -> None:
+        """Refresh one row after the editor saved it."""
+        self._refresh_row(key)
+
+    @work(thread=True, group="catalogue-row")
+    def _refresh_row(self, key: str) -> None:
+        try:
+            row = self.app.data.catalogue_row(key)
+        except Exception as exc:
+            self.app.call_from_thread(self.notify, str(exc), severity="error")
+            return
+        self.app.call_from_thread(self._replace_row, row)
+
+    def _replace_row(self, row: CatalogueRow) -> None:
+        self.rows = [r for r in self.rows if r.key != row.key] + [row]
+        self._resort()
+        self._apply_filter()
+        if row.key in self._keys:
+            self.query_one(DataTable).move_cursor(row=self._keys.index(row.key), animate=False)
+
+    def record_deleted(self, key: str) -> None:
+        self.rows = [r for r in self.rows if r.key != key]
+        self._resort()
+        self._apply_filter()

@@ -1,0 +1,310 @@
+"""What the instrument and job editors share: loading in a worker, sections, add/remove
+entries, checking before saving, unsaved-change tracking and the result banner."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.screen import Screen
+from textual.widgets import Footer, Static, TabbedContent, TabPane
+
+from vetting.tui.widgets.navbar import NavBar
+from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField, block_of
+
+
+class EditorScreen(Screen):
+    """Base class: subclasses build `sections()` and turn the form into a domain object."""
+
+    #: paths are relative to the subclass's file; subclasses in screens/ list
+    #: "../widgets/form.tcss" and "../widgets/editor.tcss" first
+    CSS_PATH = None
+    AUTO_FOCUS = None
+
+    BINDINGS = [
+        Binding("f9", "save", "Save", id="editor.save", tooltip="Check every field and save"),
+        Binding("ctrl+n", "add_entry", "Add entry", id="editor.add", tooltip="Add a record to this section"),
+        Binding("ctrl+y", "remove_entry", "Remove entry", id="editor.remove",
+                tooltip="Remove the record holding the cursor"),
+        Binding("ctrl+o", "next_section", "Next section", id="editor.next", tooltip="Show the next section"),
+        Binding("ctrl+t", "previous_section", "Prev section", show=False, id="editor.previous",
+                tooltip="Show the previous section"),
+        Binding("escape", "leave", "Back", id="editor.back", tooltip="Close the editor (asks if unsaved)"),
+    ]
+
+    #: shown in "unsaved changes in ..." questions
+    record_label = "this record"
+    kind_label = "Record"
+    #: which place of the navigation line this editor belongs to
+    nav_place = "catalogue"
+
+    def __init__(self, key: str | None) -> None:
+        super().__init__()
+        self.key = key
+        self.original: Any = None
+        self._initial: tuple | None = None
+        self.ready = False
+        self.saving = False
+
+    # -- layout ------------------------------------------------------------------------------
+
+    def compose(self) -> ComposeResult:
+        yield NavBar(self.nav_place)
+        yield Static(self._heading(), id="heading", classes="title-bar", markup=False)
+        yield Static("", id="banner", classes="form-banner", markup=False)
+        yield Vertical(Static("loading…", classes="hint"), id="body")
+        yield Footer()
+
+    def _heading(self) -> str:
+        name = self.key or "new"
+        return f"{self.kind_label}: {name}"
+
+    def sections(self) -> list[tuple[str, str, list[Any]]]:
+        """[(pane id, pane title, widgets)] for the loaded record."""
+        raise NotImplementedError
+
+    def load_record(self) -> Any:
+        """Runs in a worker thread: read what the form needs. Returns the record or None."""
+        raise NotImplementedError
+
+    def on_mount(self) -> None:
+        self._load()
+
+    @work(thread=True, exclusive=True, group="editor-load")
+    def _load(self) -> None:
+        try:
+            record = self.load_record()
+        except Exception as exc:
+            self.app.call_from_thread(self._load_failed, exc)
+            return
+        self.app.call_from_thread(self._show_record, record)
+
+    def _load_failed(self, exc: Exception) -> None:
+        self.banner(f"✗ Could not open {self.record_label}: {exc}", error=True)
+        self.query_one("#body").remove_children()
+
+    async def _show_record(self, record: Any) -> None:
+        self.original = record
+        body = self.query_one("#body", Vertical)
+        await body.remove_children()
+        tabs = TabbedContent(id="sections")
+        await body.mount(tabs)
+        for pane_id, title, widgets in self.sections():
+            scroll = VerticalScroll(*widgets, classes="section")
+            await tabs.add_pane(TabPane(title, scroll, id=pane_id))
+        self.ready = True
+        self.call_after_refresh(self._after_show)
+
+    def _after_show(self) -> None:
+        self._initial = self.snapshot()
+        self.focus_first_input()
+        self.refresh_bindings()
+
+    def focus_first_input(self) -> None:
+        pane = self.current_pane()
+        if pane is None:
+            return
+        for field in pane.query(RuleField):
+            if not field.input.disabled:
+                field.input.focus()
+                return
+
+    def current_pane(self) -> TabPane | None:
+        try:
+            tabs = self.query_one("#sections", TabbedContent)
+        except Exception:
+            return None
+        if not tabs.active:
+            return None
+        return tabs.get_pane(tabs.active)
+
+    # -- state -------------------------------------------------------------------------------
+
+    def containers(self) -> list[RecordBlock | RecordList]:
+        return [w for w in self.query("RecordBlock, RecordList") if block_of(w.parent) is None
+                and not isinstance(w.parent, RecordList)]
+
+    def snapshot(self) -> tuple:
+        return tuple(c.snapshot() for c in self.containers())
+
+    def is_dirty(self) -> bool:
+        return self.ready and self._initial is not None and self.snapshot() != self._initial
+
+    def discard(self) -> None:
+        """Forget unsaved changes (the user chose to leave without saving)."""
+        self._initial = self.snapshot() if self.ready else None
+
+    def mark_clean(self) -> None:
+        self._initial = self.snapshot()
+
+    def problems(self) -> list[tuple[RuleField, str]]:
+        out: list[tuple[RuleField, str]] = []
+        for container in self.containers():
+            out.extend(container.problems())
+        return out
+
+    def banner(self, text: str, *, error: bool = False, ok: bool = False) -> None:
+        banner = self.query_one("#banner", Static)
+        banner.update(text)
+        banner.set_class(error, "-error")
+        banner.set_class(ok and not error, "-ok")
+
+    # -- keys --------------------------------------------------------------------------------
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action in {"save", "add_entry", "remove_entry", "next_section", "previous_section"} and not self.ready:
+            return None
+        if action == "add_entry" and self._current_list() is None:
+            return None
+        return True
+
+    def _current_list(self) -> RecordList | None:
+        pane = self.current_pane()
+        if pane is None:
+            return None
+        lists = list(pane.query(RecordList))
+        return lists[-1] if lists else None
+
+    async def action_add_entry(self) -> None:
+        target = self._current_list()
+        focused_block = block_of(self.focused)
+        if focused_block is not None and isinstance(focused_block.parent, RecordList):
+            target = focused_block.parent
+        if target is None:
+            self.notify("This section holds one record; there is nothing to add.", severity="warning")
+            return
+        block = await target.add_record()
+        self.call_after_refresh(self._focus_block, block)
+
+    def _focus_block(self, block: RecordBlock) -> None:
+        fields = list(block.query(RuleField))
+        if fields:
+            fields[0].input.focus()
+            block.scroll_visible()
+
+    async def action_remove_entry(self) -> None:
+        block = block_of(self.focused)
+        if block is None or not isinstance(block.parent, RecordList):
+            self.notify("Put the cursor in a record of a list first (this one cannot be removed).",
+                        severity="warning")
+            return
+        owner = block.parent
+        await owner.remove_block(block)
+        remaining = owner.blocks
+        if remaining:
+            self._focus_block(remaining[-1])
+        self.notify(f"Removed one {owner.noun} record (not saved yet: F9 saves).")
+
+    def action_next_section(self) -> None:
+        self._step_section(1)
+
+    def action_previous_section(self) -> None:
+        self._step_section(-1)
+
+    def _step_section(self, step: int) -> None:
+        tabs = self.query_one("#sections", TabbedContent)
+        ids = [pane.id for pane in tabs.query(TabPane)]
+        if not ids:
+            return
+        index = ids.index(tabs.active) if tabs.active in ids else 0
+        tabs.active = ids[(index + step) % len(ids)]
+        self.call_after_refresh(self.focus_first_input)
+
+    def action_leave(self) -> None:
+        self.app.after_confirming(self._close)
+
+    def _close(self) -> None:
+        if self.app.screen is self:
+            self.app.pop_screen()
+
+    # -- saving ------------------------------------------------------------------------------
+
+    def show_problem(self, field: RuleField, message: str, count: int) -> None:
+        pane = field
+        while pane is not None and not isinstance(pane, TabPane):
+            pane = pane.parent  # type: ignore[assignment]
+        if pane is not None:
+            self.query_one("#sections", TabbedContent).active = pane.id
+        more = f" (and {count - 1} more)" if count > 1 else ""
+        section = pane._title if pane is not None else ""  # type: ignore[attr-defined]
+        self.banner(f"✗ Not saved: {section} › {field.spec.title} {message}{more}", error=True)
+        self.call_after_refresh(field.input.focus)
+
+    def action_save(self) -> None:
+        if self.saving:
+            return
+        problems = self.problems()
+        extra = self.extra_problems()
+        if problems:
+            field, message = problems[0]
+            self.show_problem(field, message, len(problems) + len(extra))
+            return
+        if extra:
+            field, message = extra[0]
+            self.show_problem(field, message, len(extra))
+            return
+        record = self.build_record()
+        self.saving = True
+        self.banner("saving…")
+        self._save(record)
+
+    def extra_problems(self) -> list[tuple[RuleField, str]]:
+        """Rules across records (e.g. a norm key used twice); subclasses add theirs."""
+        return []
+
+    def build_record(self) -> Any:
+        raise NotImplementedError
+
+    def store_record(self, record: Any) -> Any:
+        """Runs in a worker thread: save and return the stored record."""
+        raise NotImplementedError
+
+    @work(thread=True, exclusive=True, group="editor-save")
+    def _save(self, record: Any) -> None:
+        from vetting.records.errors import ConcurrentEdit, RecordsError
+
+        try:
+            saved = self.store_record(record)
+        except ConcurrentEdit as exc:
+            self.app.call_from_thread(self._save_conflict, exc)
+            return
+        except RecordsError as exc:
+            self.app.call_from_thread(self._save_failed, str(exc))
+            return
+        except Exception as exc:  # unexpected: keep the form, say what happened
+            self.app.call_from_thread(self._save_failed, f"{type(exc).__name__}: {exc}")
+            return
+        self.app.call_from_thread(self._saved, saved)
+
+    def _save_conflict(self, exc: Exception) -> None:
+        self.saving = False
+        who = getattr(exc, "who", None) or "someone else"
+        when = getattr(exc, "when", None)
+        at = f" at {when}" if when else ""
+        self.banner(
+            f"✗ Not saved: {who} changed {self.record_label}{at}, after you opened it. "
+            "Nothing was overwritten and your edits are still here. "
+            "Note them, leave (Escape), reopen to see their version, then re-enter yours.",
+            error=True,
+        )
+        self.notify(f"{who} saved a newer version{at}.", title="Not saved", severity="error", timeout=10)
+
+    def _save_failed(self, message: str) -> None:
+        self.saving = False
+        self.banner(f"✗ Not saved: {message}", error=True)
+
+    def _saved(self, saved: Any) -> None:
+        self.saving = False
+        self.original = saved
+        self.key = saved.key
+        self.after_saved(saved)
+        self.mark_clean()
+        self.query_one("#heading", Static).update(self._heading())
+        self.banner(f"✓ Saved {self.record_label} (version {getattr(saved, 'row_version', '?')}).", ok=True)
+        self.notify(f"Saved {saved.key}.")
+
+    def after_saved(self, saved: Any) -> None:
+        """Subclasses lock the key field, refresh other screens, etc."""

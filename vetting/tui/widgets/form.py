@@ -1,0 +1,438 @@
+"""Form building blocks that check every value as it is typed, with the import rules.
+
+A `RuleField` is one labelled input. It turns the text into a typed value with
+`vetting.records.rules.coerce` and shows the failed rule beside the field (with a ✗, so the
+meaning survives without colour). A `RecordBlock` groups the fields of one record and runs the
+rules that involve several fields (`rules.check_record`), pinning each message to its field.
+A `RecordList` holds any number of blocks of one kind, with keys to add and remove them.
+
+Special field kinds, for values typed in one line:
+
+* ``measures``  - ``attribute:fit, attribute:fit`` (fit defaults to primary)
+* ``table``     - a percentile table, ``percentile=raw, percentile=raw``
+* ``weight``    - one policy weight (a non-negative number)
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+from typing import Any
+
+from textual.app import ComposeResult
+from textual.containers import Horizontal, Vertical
+from textual.message import Message
+from textual.suggester import SuggestFromList
+from textual.widget import Widget
+from textual.widgets import Input, Label, Static
+
+from vetting.records import rules
+from vetting.records.domain import FITS, Measure, PercentilePoint
+
+ERROR_MARK = "✗"
+NOTE_MARK = "ℹ"
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    """One field of a form: the rule it obeys (`entity`.`name`) and how it is shown."""
+
+    entity: str
+    name: str
+    label: str = ""
+    #: "rule" (checked by rules.coerce) or one of the special kinds in the module docstring
+    kind: str = "rule"
+    placeholder: str = ""
+
+    @property
+    def title(self) -> str:
+        return self.label or self.name.replace("_", " ")
+
+    @property
+    def rule(self) -> rules.Rule | None:
+        return rules.ENTITIES.get(self.entity, {}).get(self.name)
+
+    @property
+    def required(self) -> bool:
+        rule = self.rule
+        return bool(rule and rule.required) or self.kind == "measures"
+
+    def hint(self) -> str:
+        if self.placeholder:
+            return self.placeholder
+        if self.kind == "measures":
+            return "attribute:primary, attribute:secondary"
+        if self.kind == "table":
+            return "percentile=raw, e.g. 10=12, 50=20, 90=28"
+        if self.kind == "weight":
+            return "a number 0 or more"
+        rule = self.rule
+        return rules.describe(rule) if rule else ""
+
+    def choices(self) -> list[str]:
+        rule = self.rule
+        return list(rule.choices) if rule and rule.choices else []
+
+
+def text_of(value: Any) -> str:
+    """What a stored value looks like in a form field."""
+    import datetime as dt
+
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return str(int(value)) if value.is_integer() else repr(value)
+    if isinstance(value, dt.date):
+        return value.isoformat()
+    if isinstance(value, (list, tuple)):
+        return ", ".join(text_of(v) for v in value)
+    return str(value)
+
+
+def measures_text(measures: Iterable[Measure]) -> str:
+    return ", ".join(f"{m.attribute}:{m.fit}" for m in measures)
+
+
+def table_text(points: Iterable[PercentilePoint]) -> str:
+    return ", ".join(f"{text_of(p.percentile)}={text_of(p.raw)}" for p in points)
+
+
+def parse_measures(text: str) -> list[Measure]:
+    """`attribute:fit, ...` into Measure objects, each part checked with the import rules."""
+    out: list[Measure] = []
+    seen: set[str] = set()
+    for part in [p.strip() for p in text.split(",") if p.strip()]:
+        key, _, fit = part.partition(":")
+        key, fit = key.strip(), (fit.strip() or "primary")
+        problem = rules.check_field("measure", "attribute", key)
+        if problem:
+            raise rules.RuleError(f"{part!r}: {problem}")
+        problem = rules.check_field("measure", "fit", fit)
+        if problem:
+            raise rules.RuleError(f"{part!r}: fit {problem}")
+        if key in seen:
+            raise rules.RuleError(f"lists {key} more than once")
+        seen.add(key)
+        out.append(Measure(attribute=key, fit=fit))
+    if not out:
+        raise rules.RuleError("is required: name at least one attribute, e.g. " + f"numerical-reasoning:{FITS[0]}")
+    return out
+
+
+def parse_table(text: str) -> list[PercentilePoint]:
+    """`percentile=raw, ...` into percentile points, checked like an imported norm table."""
+    points: list[PercentilePoint] = []
+    for part in [p.strip() for p in text.split(",") if p.strip()]:
+        pct, sep, raw = part.partition("=")
+        if not sep:
+            raise rules.RuleError(f"{part!r}: write each point as percentile=raw, e.g. 50=20")
+        try:
+            p_value = rules.coerce("percentile", "percentile", pct)
+            r_value = rules.coerce("percentile", "raw", raw)
+        except rules.RuleError as exc:
+            raise rules.RuleError(f"{part!r}: {exc}") from None
+        points.append(PercentilePoint(percentile=p_value, raw=r_value))
+    problems = rules.check_percentile_table(points)
+    if problems:
+        raise rules.RuleError(problems[0][1])
+    return points
+
+
+def parse_weight(name: str, text: str) -> float:
+    stripped = text.strip()
+    if not stripped:
+        return 0.0
+    try:
+        value = float(stripped)
+    except ValueError:
+        raise rules.RuleError(f"must be a non-negative number; got {stripped!r}") from None
+    problems = rules.check_weights({name: value})
+    if problems and problems[0][0] is not None:
+        raise rules.RuleError(problems[0][1])
+    return value
+
+
+def convert(spec: FieldSpec, text: str) -> Any:
+    """The typed value of `text` for `spec`; raises rules.RuleError with the rule's message."""
+    if spec.kind == "measures":
+        return parse_measures(text)
+    if spec.kind == "table":
+        return parse_table(text)
+    if spec.kind == "weight":
+        return parse_weight(spec.name, text)
+    return rules.coerce(spec.entity, spec.name, text)
+
+
+class RuleField(Widget):
+    """A labelled input checked on every keystroke; shows `✗ rule` beside the field."""
+
+    class Changed(Message):
+        def __init__(self, field: RuleField) -> None:
+            super().__init__()
+            self.field = field
+
+    def __init__(self, spec: FieldSpec, text: str = "", *, disabled_input: bool = False) -> None:
+        super().__init__(classes="rule-field")
+        self.spec = spec
+        self.initial = text
+        self._disabled_input = disabled_input
+        #: message from a rule on this field alone
+        self.own_error: str | None = None
+        #: message from a rule across fields of the record, pinned here
+        self.record_error: str | None = None
+        #: a note that is not an error (e.g. 'a new attribute will be added')
+        self.note: str | None = None
+        #: "is required" on an untouched blank field waits until the first save attempt
+        self.revealed = bool(text)
+
+    def compose(self) -> ComposeResult:
+        spec = self.spec
+        mark = " *" if spec.required else ""
+        with Horizontal(classes="field-row"):
+            yield Label(spec.title + mark, classes="field-label")
+            choices = spec.choices()
+            suggester = SuggestFromList(choices, case_sensitive=False) if choices else None
+            yield Input(
+                value=self.initial,
+                placeholder=spec.hint(),
+                suggester=suggester,
+                classes="field-input",
+                disabled=self._disabled_input,
+                id=f"in-{spec.name}",
+            )
+        yield Static("", classes="field-message", markup=False)
+
+    def on_mount(self) -> None:
+        self.check()
+
+    @property
+    def input(self) -> Input:
+        return self.query_one(Input)
+
+    @property
+    def text(self) -> str:
+        return self.input.value
+
+    @property
+    def error(self) -> str | None:
+        return self.own_error or self.record_error
+
+    def value(self) -> Any:
+        """The typed value (raises rules.RuleError when the text breaks a rule)."""
+        return convert(self.spec, self.text)
+
+    def check(self) -> str | None:
+        try:
+            convert(self.spec, self.text)
+            self.own_error = None
+        except rules.RuleError as exc:
+            self.own_error = str(exc)
+        self.show()
+        return self.own_error
+
+    def show(self) -> None:
+        message = self.query_one(".field-message", Static)
+        problem = self.error
+        if problem and not self.revealed and not self.text.strip():
+            problem = None
+        if problem:
+            message.update(f"{ERROR_MARK} {self.spec.title} {problem}")
+        elif self.note:
+            message.update(f"{NOTE_MARK} {self.note}")
+        else:
+            message.update("")
+        message.set_class(bool(problem), "-error")
+        message.set_class(not problem and bool(self.note), "-note")
+        message.display = bool(problem or self.note)
+        self.set_class(bool(problem), "-invalid")
+        self.input.set_class(bool(problem), "-invalid")
+
+    def reveal(self) -> None:
+        """Show every problem, including 'is required' on fields never typed in."""
+        self.revealed = True
+        self.show()
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        event.stop()
+        if event.value != self.initial:
+            self.revealed = True
+        self.check()
+        self.post_message(self.Changed(self))
+
+
+class RecordBlock(Vertical):
+    """The fields of one record; cross-field rules are pinned to the field they name."""
+
+    def __init__(
+        self,
+        entity: str,
+        specs: list[FieldSpec],
+        texts: dict[str, str] | None = None,
+        *,
+        title: str = "",
+        locked: Iterable[str] = (),
+        classes: str = "",
+    ) -> None:
+        super().__init__(classes=("record-block " + classes).strip())
+        self.entity = entity
+        self.specs = specs
+        self.texts = texts or {}
+        self.block_title = title
+        self.locked = set(locked)
+
+    def compose(self) -> ComposeResult:
+        if self.block_title:
+            yield Static(self.block_title, classes="block-title", markup=False)
+        for spec in self.specs:
+            yield RuleField(spec, self.texts.get(spec.name, ""), disabled_input=spec.name in self.locked)
+
+    @property
+    def fields(self) -> dict[str, RuleField]:
+        return {f.spec.name: f for f in self.query(RuleField)}
+
+    def on_rule_field_changed(self, event: RuleField.Changed) -> None:
+        self.check_record()
+
+    def on_mount(self) -> None:
+        self.call_after_refresh(self.check_record)
+
+    def values(self) -> dict[str, Any]:
+        """Typed values of the fields whose own rules pass (others are left out)."""
+        out: dict[str, Any] = {}
+        for name, field in self.fields.items():
+            try:
+                out[name] = field.value()
+            except rules.RuleError:
+                continue
+        return out
+
+    def check_record(self) -> None:
+        fields = self.fields
+        for field in fields.values():
+            field.record_error = None
+        if self.entity == "weights":
+            first = next(iter(fields.values()), None)
+            for name, message in rules.check_weights(self.values()):
+                target = fields.get(name) if name else first
+                if target is not None and target.own_error is None:
+                    target.record_error = message
+        elif self.entity in rules.ENTITIES:
+            for path, message in rules.check_record(self.entity, self.values()):
+                name = path.split(".")[0].split("[")[0]
+                target = fields.get(name)
+                if target is not None:
+                    target.record_error = message
+        for field in fields.values():
+            field.show()
+
+    def problems(self) -> list[tuple[RuleField, str]]:
+        self.check_record()
+        for field in self.fields.values():
+            field.reveal()
+        return [(f, f.error) for f in self.fields.values() if f.error]
+
+    def snapshot(self) -> tuple[str, ...]:
+        return tuple(f.text for f in self.fields.values())
+
+
+class RecordList(Vertical):
+    """Any number of records of one kind; the editor adds and removes blocks."""
+
+    def __init__(
+        self,
+        entity: str,
+        specs: list[FieldSpec],
+        records: list[dict[str, str]],
+        *,
+        noun: str,
+        id: str | None = None,
+    ) -> None:
+        super().__init__(id=id, classes="record-list")
+        self.entity = entity
+        self.specs = specs
+        self.records = records
+        self.noun = noun
+        self._counter = 0
+
+    def compose(self) -> ComposeResult:
+        yield Static(self._empty_text(), classes="list-empty hint", markup=False)
+        for texts in self.records:
+            yield self._block(texts)
+
+    def _empty_text(self) -> str:
+        return f"No {self.noun} records. Press ctrl+n to add one."
+
+    def _block(self, texts: dict[str, str]) -> RecordBlock:
+        self._counter += 1
+        return RecordBlock(self.entity, self.specs, texts, title=f"{self.noun} {self._counter}")
+
+    def on_mount(self) -> None:
+        self._update_empty()
+
+    def _update_empty(self) -> None:
+        self.query_one(".list-empty", Static).display = not self.blocks
+
+    @property
+    def blocks(self) -> list[RecordBlock]:
+        return list(self.query_children(RecordBlock))
+
+    async def add_record(self, texts: dict[str, str] | None = None) -> RecordBlock:
+        block = self._block(texts or {})
+        await self.mount(block)
+        self._update_empty()
+        self._renumber()
+        return block
+
+    async def remove_block(self, block: RecordBlock) -> None:
+        await block.remove()
+        self._update_empty()
+        self._renumber()
+
+    def _renumber(self) -> None:
+        for index, block in enumerate(self.blocks, start=1):
+            title = block.query(".block-title")
+            if title:
+                title.first(Static).update(f"{self.noun} {index}")
+
+    def values(self) -> list[dict[str, Any]]:
+        return [b.values() for b in self.blocks]
+
+    def problems(self) -> list[tuple[RuleField, str]]:
+        out: list[tuple[RuleField, str]] = []
+        for block in self.blocks:
+            out.extend(block.problems())
+        return out
+
+    def snapshot(self) -> tuple[tuple[str, ...], ...]:
+        return tuple(b.snapshot() for b in self.blocks)
+
+
+def block_of(widget: Widget | None) -> RecordBlock | None:
+    """The record block holding `widget`, if any."""
+    node = widget
+    while node is not None and not isinstance(node, RecordBlock):
+        node = node.parent  # type: ignore[assignment]
+    return node
+
+
+def each_problem(containers: Iterable[RecordBlock | RecordList]) -> list[tuple[RuleField, str]]:
+    out: list[tuple[RuleField, str]] = []
+    for container in containers:
+        out.extend(container.problems())
+    return out
+
+
+__all__ = [
+    "FieldSpec",
+    "RecordBlock",
+    "RecordList",
+    "RuleField",
+    "block_of",
+    "convert",
+    "each_problem",
+    "measures_text",
+    "table_text",
+    "text_of",
+]
