@@ -128,8 +128,18 @@ def current_revision(engine: Engine) -> str | None:
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
     """Bring the schema to `revision` (default: the newest). Nothing happens when it is there."""
-    if revision == "head" and current_revision(engine) == head_revision():
+    current = current_revision(engine)
+    if revision == "head" and current == head_revision():
         return
+    if current is not None:
+        script = ScriptDirectory.from_config(alembic_config())
+        try:
+            script.get_revision(current)
+        except Exception:
+            raise DatabaseUnavailable(
+                f"this database has schema revision {current}, written by a newer version of vetting; "
+                "upgrade vetting to open it (nothing was changed)"
+            ) from None
     cfg = alembic_config()
     with engine.execution_options(**{WRITE_OPTION: True}).begin() as conn:
         cfg.attributes["connection"] = conn
