@@ -200,19 +200,55 @@ def render(doc_model: Document) -> bytes:
     props.content_status = doc_model.status
     props.identifier = fp
     props.keywords = "vetting decision memo"
-    props.comments = json.dumps(doc_model.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    props.comments = "Decision memo written by vetting; record stamp in the custom property " + STAMP_PROPERTY
     props.revision = 1
+    _add_stamp_part(doc, json.dumps(doc_model.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True))
 
     buf = io.BytesIO()
     doc.save(buf)
     return buf.getvalue()
 
 
+STAMP_PROPERTY = "vetting-memo-stamp"
+_CUSTOM_PART = "/docProps/custom.xml"
+_CUSTOM_CT = "application/vnd.openxmlformats-officedocument.custom-properties+xml"
+_CUSTOM_RT = "http://schemas.openxmlformats.org/officeDocument/2006/relationships/custom-properties"
+_CUSTOM_NS = "http://schemas.openxmlformats.org/officeDocument/2006/custom-properties"
+_VT_NS = "http://schemas.openxmlformats.org/officeDocument/2006/docPropsVTypes"
+
+
+def _add_stamp_part(doc, stamp_json: str) -> None:
+    """Store the stamp as a custom document property (docProps/custom.xml, ECMA-376 part 1,
+    section 22.3): core properties are limited to 255 characters, custom ones are not."""
+    from xml.sax.saxutils import escape as xml_escape
+
+    from docx.opc.packuri import PackURI
+    from docx.opc.part import Part
+
+    xml = (
+        '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+        f'<Properties xmlns="{_CUSTOM_NS}" xmlns:vt="{_VT_NS}">'
+        '<property fmtid="{D5CDD505-2E9C-101B-9397-08002B2CF9AE}" pid="2" '
+        f'name="{STAMP_PROPERTY}"><vt:lpwstr>{xml_escape(stamp_json)}</vt:lpwstr></property>'
+        "</Properties>"
+    ).encode("utf-8")
+    package = doc.part.package
+    part = Part(PackURI(_CUSTOM_PART), _CUSTOM_CT, xml, package)
+    package.relate_to(part, _CUSTOM_RT)
+
+
 def read_stamp(data: bytes) -> dict | None:
+    import xml.etree.ElementTree as ET
+
     import docx
 
     doc = docx.Document(io.BytesIO(data))
-    comments = doc.core_properties.comments
-    if not comments:
-        return None
-    return json.loads(comments)
+    for part in doc.part.package.iter_parts():
+        if str(part.partname) == _CUSTOM_PART:
+            root = ET.fromstring(part.blob)
+            for prop in root.findall(f"{{{_CUSTOM_NS}}}property"):
+                if prop.get("name") == STAMP_PROPERTY:
+                    value = prop.find(f"{{{_VT_NS}}}lpwstr")
+                    if value is not None and value.text:
+                        return json.loads(value.text)
+    return None

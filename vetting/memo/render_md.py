@@ -24,11 +24,14 @@ _SPECIAL = re.compile(r"([\\`*_\[\]<>|#~])")
 _LEADING_LIST = re.compile(r"^(\s*)([-+]|\d+[.)])(\s)")
 
 
+def inline(text: str) -> str:
+    """Make text literal inside a line (after a marker such as '# ', '- ' or '| ')."""
+    return _SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+
+
 def escape(text: str) -> str:
-    """Make user text literal in Markdown: no markup, no raw HTML, one line."""
-    text = " ".join(str(text).split())
-    text = _SPECIAL.sub(r"\\\1", text)
-    return _LEADING_LIST.sub(lambda m: m.group(1) + "\\" + m.group(2) + m.group(3), text)
+    """Make user text literal in Markdown at the start of a line: no markup, no raw HTML, one line."""
+    return _LEADING_LIST.sub(lambda m: m.group(1) + "\\" + m.group(2) + m.group(3), inline(text))
 
 
 def _table(table: Table) -> list[str]:
@@ -70,7 +73,7 @@ def _block(block) -> list[str]:
 
 
 def _section(section: Section, level: int) -> list[str]:
-    out = ["#" * level + " " + escape(section.title), ""]
+    out = ["#" * level + " " + inline(section.title), ""]
     for block in section.blocks:
         out += _block(block)
     for sub in section.subsections:
@@ -79,7 +82,7 @@ def _section(section: Section, level: int) -> list[str]:
 
 
 def render(doc: Document) -> str:
-    lines = [f"# {escape(doc.title)}", "", f"*{escape(doc.subtitle)}*", ""]
+    lines = [f"# {inline(doc.title)}", "", f"*{inline(doc.subtitle)}*", ""]
     for section in doc.sections:
         lines += _section(section, 2)
     stamp = json.dumps(doc.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
