@@ -393,6 +393,13 @@ class Store:
     def __init__(self, engine: Engine, url: str, user: str) -> None:
         self._engine = engine
         self._write_engine = engine.execution_options(**{engines.WRITE_OPTION: True})
+        # a read that takes several queries (an instrument and its evidence) sees one snapshot:
+        # SQLite's read transactions already do; PostgreSQL needs REPEATABLE READ for it
+        self._read_engine = (
+            engine.execution_options(isolation_level="REPEATABLE READ")
+            if engine.dialect.name == "postgresql"
+            else engine
+        )
         self.url = url
         self.user = user
 
@@ -436,7 +443,7 @@ class Store:
     @contextmanager
     def _read(self) -> Iterator[Session]:
         try:
-            with Session(self._engine, expire_on_commit=False) as s:
+            with Session(self._read_engine, expire_on_commit=False) as s:
                 with s.begin():
                     yield s
         except OperationalError as exc:
