@@ -271,8 +271,15 @@ def worst_d(instrument: Instrument):
     return max(instrument.subgroup_differences, key=lambda s: s.d)
 
 
-def fairness_component(job: Job, instrument: Instrument, policy: Policy) -> tuple[Component, list[AppraisalWarning], float | None]:
-    """Component, warnings and the expected impact ratio (None when it cannot be computed)."""
+_UNSET = object()
+
+
+def fairness_component(job: Job, instrument: Instrument, policy: Policy, ratio=_UNSET) -> tuple[Component, list[AppraisalWarning], float | None]:
+    """Component, warnings and the expected impact ratio (None when it cannot be computed).
+
+    `ratio`: the expected impact ratio already computed for this instrument's worst d at the
+    job's selection ratio (rank() computes them for all instruments in one vectorised call).
+    """
     sub = worst_d(instrument)
     if sub is None:
         return (
@@ -288,9 +295,10 @@ def fairness_component(job: Job, instrument: Instrument, policy: Policy) -> tupl
             [_w("selection_ratio_unknown", "the job's hires and applicants per year are needed to estimate adverse impact")],
             None,
         )
-    from vetting.psychometrics import impact as pi
+    if ratio is _UNSET:
+        from vetting.psychometrics import impact as pi
 
-    _focal, ratio = pi.expected_impact(sub.d, sr)
+        ratio = pi.expected_impact(sub.d, sr)[1]
     ratio = float(ratio)
     warnings = []
     if ratio < policy.impact_ratio_floor:
