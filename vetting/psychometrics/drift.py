@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from scipy.stats import norm
+from vetting.psychometrics import _normal as norm
 
 from vetting.psychometrics import _checks as ck
 from vetting.psychometrics.errors import PsychometricsError

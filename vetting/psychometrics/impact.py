@@ -18,8 +18,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy.optimize import brentq
-from scipy.stats import norm
+from vetting.psychometrics import _normal as norm
 
 from vetting.psychometrics import _checks as ck
 
@@ -105,6 +104,8 @@ def max_selection_ratio_for_floor(d: float, floor: float = FOUR_FIFTHS) -> Impac
             dd, fl, False, None, None,
             "even passing nearly everyone leaves the expected ratio below the floor",
         )
+    from scipy.optimize import brentq  # imported here: scipy.optimize is slow to import
+
     cut = brentq(gap, lo, hi, xtol=1e-12, rtol=1e-12)
     p = float(norm.sf(cut))
     return ImpactLimit(

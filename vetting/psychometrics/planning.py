@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from scipy.stats import norm
+from vetting.psychometrics import _normal as norm
 
 from vetting.psychometrics import _checks as ck
 

@@ -23,8 +23,7 @@ from dataclasses import dataclass
 from typing import Any, Sequence
 
 import numpy as np
-from scipy.interpolate import PchipInterpolator
-from scipy.stats import norm
+from vetting.psychometrics import _normal as norm
 
 from vetting.psychometrics import _checks as ck
 from vetting.psychometrics.errors import PsychometricsError
@@ -163,6 +162,8 @@ def percentiles_from_table(raw: Any, points: Sequence[Sequence[float]]) -> tuple
     """
     pct, table_raw = _table(points)
     x = ck.number(raw, "raw")
+    from scipy.interpolate import PchipInterpolator  # imported here: slow to import
+
     interp = PchipInterpolator(table_raw, pct, extrapolate=False)
     inside = np.clip(x, table_raw[0], table_raw[-1])
     result = np.asarray(interp(inside), dtype=float)

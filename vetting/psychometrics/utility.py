@@ -19,7 +19,7 @@ from typing import Any
 
 import numpy as np
 from scipy.special import owens_t
-from scipy.stats import norm
+from vetting.psychometrics import _normal as norm
 
 from vetting.psychometrics import _checks as ck
 
