@@ -49,6 +49,13 @@ def _shade(cell, fill: str, edge: str | None = None) -> None:
         )
 
 
+def _keep_row_together(row) -> None:
+    from docx.oxml import parse_xml
+    from docx.oxml.ns import nsdecls
+
+    row._tr.get_or_add_trPr().append(parse_xml(f'<w:cantSplit {nsdecls("w")}/>'))
+
+
 def _repeat_header(row) -> None:
     from docx.oxml import parse_xml
     from docx.oxml.ns import nsdecls
@@ -83,13 +90,54 @@ def _add_table(doc, table: Table) -> None:
             cells[i].text = _t(value)
             if i in table.numeric:
                 cells[i].paragraphs[0].alignment = WD_ALIGN_PARAGRAPH.RIGHT
+    widths = _column_widths(table)
+    t.autofit = False
+    for i, width in enumerate(widths):
+        t.columns[i].width = width
     for row in t.rows:
-        for cell in row.cells:
+        _keep_row_together(row)
+        for i, cell in enumerate(row.cells):
+            cell.width = widths[i]
             for p in cell.paragraphs:
                 p.paragraph_format.space_after = Pt(0)
                 for run in p.runs:
                     run.font.size = Pt(8.5)
     doc.add_paragraph().paragraph_format.space_after = Pt(2)
+
+
+#: Text width of an A4 page with 2 cm margins.
+TEXT_WIDTH_CM = 17.0
+
+
+def _column_widths(table: Table):
+    """Share the text width among columns by how much text each holds: the longest word sets a
+    floor (so words are not split), the longest cell sets the wish, within sensible limits."""
+    from docx.shared import Cm
+
+    n = len(table.columns)
+    floors, wishes = [], []
+    for i, name in enumerate(table.columns):
+        cells = [name] + [row[i] for row in table.rows if i < len(row)]
+        longest_word = max((len(w) for c in cells for w in str(c).split()), default=1)
+        longest_cell = max((len(str(c)) for c in cells), default=1)
+        floors.append(min(max(longest_word, 3), 18))
+        wishes.append(min(max(longest_cell, 4), 60))
+    total_wish = sum(wishes)
+    chars_per_cm = 6.0  # 8.5 pt text, bold headers included
+    padding_cm = 0.40  # the cell's left and right margins
+    avail = (TEXT_WIDTH_CM - n * padding_cm) * chars_per_cm
+    if total_wish <= avail:
+        chars = [w * avail / total_wish for w in wishes]
+    else:
+        floor_total = sum(floors)
+        if floor_total >= avail:
+            chars = [f * avail / floor_total for f in floors]
+        else:
+            extra = avail - floor_total
+            spare = [max(w - f, 0) for w, f in zip(wishes, floors)]
+            spare_total = sum(spare) or 1
+            chars = [f + extra * sp / spare_total for f, sp in zip(floors, spare)]
+    return [Cm(c / chars_per_cm + padding_cm) for c in chars[:n]]
 
 
 def _add_block(doc, block) -> None:
@@ -116,10 +164,10 @@ def _add_block(doc, block) -> None:
             cells[1].text = _t(value)
             for c in cells:
                 c.paragraphs[0].paragraph_format.space_after = Pt(0)
-        t.columns[0].width = Inches(1.9)
+        t.columns[0].width = Inches(2.2)
         for row in t.rows:
-            row.cells[0].width = Inches(1.9)
-            row.cells[1].width = Inches(4.6)
+            row.cells[0].width = Inches(2.2)
+            row.cells[1].width = Inches(4.3)
         doc.add_paragraph().paragraph_format.space_after = Pt(2)
     elif isinstance(block, Table):
         _add_table(doc, block)
@@ -127,6 +175,7 @@ def _add_block(doc, block) -> None:
         kind = block.kind if block.kind in _CALLOUT_FILL else "note"
         t = doc.add_table(rows=1, cols=1)
         cell = t.rows[0].cells[0]
+        _keep_row_together(t.rows[0])
         _shade(cell, _CALLOUT_FILL[kind], _CALLOUT_EDGE[kind])
         cell.text = ""
         cell.paragraphs[0].add_run(_t(block.title)).bold = True

@@ -59,6 +59,7 @@ def cmd_memo(args: argparse.Namespace) -> int:
     from vetting.appraisal.errors import AppraisalError
     from vetting.memo.api import make_memo
     from vetting.memo.build import MemoError
+    from vetting.psychometrics.errors import PsychometricsError
 
     if args.override is not None and args.choose is None:
         raise BadInput("--override is only used together with --choose INSTRUMENT")
@@ -75,7 +76,7 @@ def cmd_memo(args: argparse.Namespace) -> int:
                 final=args.final,
                 seed=args.seed,
             )
-        except (MemoError, AppraisalError) as exc:
+        except (MemoError, AppraisalError, PsychometricsError) as exc:
             raise BadInput(str(exc)) from None
     if args.json:
         print_json(
