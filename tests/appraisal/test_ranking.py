@@ -128,3 +128,25 @@ def test_alternatives_when_top_has_no_subgroup_data():
     r = rank(job(), [instrument("a", subgroup_differences=[])], as_of=AS_OF, draws=10)
     assert r.alternatives.alternatives == [] and "unknown" in r.alternatives.note
     assert find_alternatives([]).top is None
+
+
+def test_draw_pruning_keeps_every_possible_winner():
+    from vetting.appraisal.ranking import _contenders, p_best_draws
+
+    # row 0 and row 1 each lead on one component; row 2 is beaten by row 0 everywhere;
+    # row 3 is an exact copy of row 0 (ties go to the earlier row, so it can never be first)
+    C = np.array([
+        [0.9, 0.6, 0.5, 0.5, 0.5, 0.2],
+        [0.8, 0.6, 0.5, 0.5, 0.5, 1.0],
+        [0.7, 0.5, 0.4, 0.5, 0.3, 0.1],
+        [0.9, 0.6, 0.5, 0.5, 0.5, 0.2],
+    ])
+    positive = np.ones(6, dtype=bool)
+    r0 = C[:, 1] * 0.5
+    se = np.zeros(4)
+    assert list(_contenders(C, positive, r0, se)) == [0, 1]
+    w = np.array([0.3, 0.3, 0.15, 0.1, 0.1, 0.05])
+    p = p_best_draws(C, w, r0, se, draws=4000, seed=1)
+    assert p[2] == 0 and p[3] == 0 and p[0] > 0 and p[1] > 0 and p.sum() == pytest.approx(1.0)
+    # with validity uncertainty wide enough to overlap, row 2 becomes a possible winner again
+    assert 2 in _contenders(C, positive, r0, np.full(4, 0.05))
