@@ -94,49 +94,53 @@ class InstrumentEditor(EditorScreen):
             return None
         return data.instrument(self.key)
 
-    def sections(self) -> list[tuple[str, str, list[Any]]]:
+    def sections(self) -> list[tuple[str, str, Any]]:
         inst: Instrument | None = self.original
         locked = ["key"] if inst is not None else []
-        description = RecordBlock(
-            "instrument", DESCRIPTION, _texts(inst, DESCRIPTION) if inst else {}, locked=locked, classes="description"
-        )
-        note = Static(
-            "Fields marked * are required. Lists are typed with commas. Measures: attribute:fit "
-            "(fit is primary or secondary). Attributes not yet known are added when you save.",
-            classes="section-note",
-        )
 
-        def listed(entity: str, specs: list[FieldSpec], items: list[Any], noun: str, id: str) -> RecordList:
-            return RecordList(entity, specs, [_texts(i, specs) for i in items], noun=noun, id=id)
+        def describe() -> list[Any]:
+            note = Static(
+                "Fields marked * are required. Lists are typed with commas. Measures: attribute:fit "
+                "(fit is primary or secondary). Attributes not yet known are added when you save.",
+                classes="section-note",
+            )
+            texts = _texts(inst, DESCRIPTION) if inst else {}
+            return [note, RecordBlock("instrument", DESCRIPTION, texts, locked=locked, classes="description")]
 
-        sample = inst.sample_copy if inst else None
+        def listed(entity: str, specs: list[FieldSpec], attr: str, noun: str, id: str, note: str = "") -> Any:
+            def build() -> list[Any]:
+                items = getattr(inst, attr) if inst else []
+                widgets: list[Any] = [Static(note, classes="section-note")] if note else []
+                widgets.append(RecordList(entity, specs, [_texts(i, specs) for i in items], noun=noun, id=id))
+                return widgets
+
+            return build
+
+        def sample() -> list[Any]:
+            copy = inst.sample_copy if inst else None
+            return [
+                RecordBlock("sample_copy", SAMPLE_COPY, _texts(copy, SAMPLE_COPY) if copy else {}, classes="sample-copy"),
+                RecordList("sample_check", SAMPLE_CHECKS, [_texts(c, SAMPLE_CHECKS) for c in (copy.checks if copy else [])],
+                           noun="Check", id="list-checks"),
+            ]
+
         return [
-            ("describe", "Description", [note, description]),
-            ("reliability", "Reliability", [listed("reliability", RELIABILITY, inst.reliability if inst else [],
-                                                   "Reliability", "list-reliability")]),
-            ("validity", "Validity", [listed("validity", VALIDITY, inst.validity if inst else [],
-                                             "Validity study", "list-validity")]),
-            ("norms", "Norms", [
-                Static("Percentile table: percentile=raw pairs, both increasing, e.g. 10=12, 50=20, 90=28.",
-                       classes="section-note"),
-                listed("norm", NORMS, inst.norms if inst else [], "Norm group", "list-norms"),
-            ]),
-            ("subgroups", "Subgroups", [listed("subgroup_difference", SUBGROUPS,
-                                               inst.subgroup_differences if inst else [],
-                                               "Subgroup difference", "list-subgroups")]),
-            ("reviews", "Reviews", [listed("review", REVIEWS, inst.reviews if inst else [], "Review",
-                                           "list-reviews")]),
-            ("sample", "Sample copy", [
-                RecordBlock("sample_copy", SAMPLE_COPY, _texts(sample, SAMPLE_COPY) if sample else {},
-                            classes="sample-copy"),
-                listed("sample_check", SAMPLE_CHECKS, sample.checks if sample else [], "Check",
-                       "list-checks"),
-            ]),
+            ("describe", "Description", describe),
+            ("reliability", "Reliability", listed("reliability", RELIABILITY, "reliability", "Reliability",
+                                                  "list-reliability")),
+            ("validity", "Validity", listed("validity", VALIDITY, "validity", "Validity study", "list-validity")),
+            ("norms", "Norms", listed("norm", NORMS, "norms", "Norm group", "list-norms",
+                                      "Percentile table: percentile=raw pairs, both increasing, "
+                                      "e.g. 10=12, 50=20, 90=28.")),
+            ("subgroups", "Subgroups", listed("subgroup_difference", SUBGROUPS, "subgroup_differences",
+                                              "Subgroup difference", "list-subgroups")),
+            ("reviews", "Reviews", listed("review", REVIEWS, "reviews", "Review", "list-reviews")),
+            ("sample", "Sample copy", sample),
         ]
 
-    def _after_show(self) -> None:
-        super()._after_show()
-        self._note_new_attributes()
+    def pane_built(self, pane_id: str) -> None:
+        if pane_id == "describe":
+            self._note_new_attributes()
 
     # -- checks ------------------------------------------------------------------------------
 
@@ -162,6 +166,8 @@ class InstrumentEditor(EditorScreen):
     def extra_problems(self) -> list[tuple[RuleField, str]]:
         out: list[tuple[RuleField, str]] = []
         seen: set[str] = set()
+        if not self.built("norms"):
+            return out
         for block in self.query_one("#list-norms", RecordList).blocks:
             field = block.fields["key"]
             if field.text.strip() in seen:
@@ -172,26 +178,32 @@ class InstrumentEditor(EditorScreen):
     # -- building and saving -----------------------------------------------------------------
 
     def build_record(self) -> Instrument:
+        inst: Instrument | None = self.original
         desc = self.query_one(".description", RecordBlock).values()
-        lists = {
-            name: self.query_one(f"#list-{name}", RecordList).values()
-            for name in ("reliability", "validity", "norms", "subgroups", "reviews", "checks")
-        }
-        sample_values = self.query_one(".sample-copy", RecordBlock).values()
-        checks = [SampleCheck(**_kwargs(v)) for v in lists["checks"]]
-        has_sample = any(v is not None for v in sample_values.values()) or checks
-        sample = SampleCopy(**_kwargs(sample_values), checks=checks) if has_sample else None
-        key = desc["key"] if self.original is None else self.original.key
+
+        def items(pane: str, list_id: str, cls: type, attr: str) -> list[Any]:
+            if not self.built(pane):  # never shown: keep what is stored
+                return list(getattr(inst, attr)) if inst else []
+            return [cls(**_kwargs(v)) for v in self.query_one(f"#{list_id}", RecordList).values()]
+
+        if self.built("sample"):
+            sample_values = self.query_one(".sample-copy", RecordBlock).values()
+            checks = [SampleCheck(**_kwargs(v)) for v in self.query_one("#list-checks", RecordList).values()]
+            has_sample = any(v is not None for v in sample_values.values()) or checks
+            sample = SampleCopy(**_kwargs(sample_values), checks=checks) if has_sample else None
+        else:
+            sample = inst.sample_copy if inst else None
+        key = desc["key"] if inst is None else inst.key
         return Instrument(
             **_kwargs({k: v for k, v in desc.items() if k != "key"}),
             key=key,
-            reliability=[Reliability(**_kwargs(v)) for v in lists["reliability"]],
-            validity=[ValidityStudy(**_kwargs(v)) for v in lists["validity"]],
-            norms=[NormGroup(**_kwargs(v)) for v in lists["norms"]],
-            subgroup_differences=[SubgroupDifference(**_kwargs(v)) for v in lists["subgroups"]],
-            reviews=[Review(**_kwargs(v)) for v in lists["reviews"]],
+            reliability=items("reliability", "list-reliability", Reliability, "reliability"),
+            validity=items("validity", "list-validity", ValidityStudy, "validity"),
+            norms=items("norms", "list-norms", NormGroup, "norms"),
+            subgroup_differences=items("subgroups", "list-subgroups", SubgroupDifference, "subgroup_differences"),
+            reviews=items("reviews", "list-reviews", Review, "reviews"),
             sample_copy=sample,
-            row_version=self.original.row_version if self.original is not None else None,
+            row_version=inst.row_version if inst is not None else None,
         )
 
     def store_record(self, record: Instrument) -> Instrument:

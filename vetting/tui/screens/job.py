@@ -146,6 +146,7 @@ class JobEditor(EditorScreen):
     CSS_PATH = ["../widgets/form.tcss", "../widgets/editor.tcss"]
     kind_label = "Job"
     nav_place = "jobs"
+    LAZY = False  # three short sections; all are checked before saving
     BINDINGS = [
         Binding("ctrl+k", "lock_policy", "Lock policy", id="job.lock",
                 tooltip="Freeze the current policy version before looking at results"),
@@ -166,7 +167,7 @@ class JobEditor(EditorScreen):
         self.versions = data.policy_versions(self.key)
         return job
 
-    def sections(self) -> list[tuple[str, str, list[Any]]]:
+    def sections(self) -> list[tuple[str, str, Any]]:
         job: Job | None = self.original
         locked = ["key"] if job is not None else []
         policy = job.policy if job is not None else Policy()
@@ -175,16 +176,16 @@ class JobEditor(EditorScreen):
         ]
         weights = {s.name: text_of(float(policy.weights.get(s.name, 0.0))) for s in WEIGHTS}
         return [
-            ("profile", "Job", [
+            ("profile", "Job", lambda: [
                 Static("Fields marked * are required.", classes="section-note"),
                 RecordBlock("job", JOB, _texts(job, JOB) if job else {}, locked=locked, classes="job-profile"),
             ]),
-            ("requirements", "Requirements", [
+            ("requirements", "Requirements", lambda: [
                 Static("Importance 1 (minor) to 5 (essential); critical: yes when a test must cover it. "
                        "Attributes not yet known are added when you save.", classes="section-note"),
                 RecordList("requirement", REQUIREMENT, requirements, noun="Requirement", id="list-requirements"),
             ]),
-            ("policy", "Policy", [
+            ("policy", "Policy", lambda: [
                 Static(self._versions_text(), id="policy-state", classes="section-note", markup=False),
                 RecordBlock("policy", POLICY, _texts(policy, POLICY), classes="policy-rules"),
                 RecordBlock("weights", WEIGHTS, weights, title="Weights (relative; not all 0)",
@@ -207,9 +208,9 @@ class JobEditor(EditorScreen):
             lines.append(f"First ranked {job.first_ranked_at:%Y-%m-%d %H:%M} UTC.")
         return "\n".join(lines)
 
-    def _after_show(self) -> None:
-        super()._after_show()
-        self._note_new_attributes()
+    def pane_built(self, pane_id: str) -> None:
+        if pane_id == "requirements":
+            self._note_new_attributes()
 
     def on_rule_field_changed(self, event: RuleField.Changed) -> None:
         if event.field.spec.entity == "requirement" and event.field.spec.name == "attribute":

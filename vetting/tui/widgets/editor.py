@@ -23,6 +23,8 @@ class EditorScreen(Screen):
     #: "../widgets/form.tcss" and "../widgets/editor.tcss" first
     CSS_PATH = None
     AUTO_FOCUS = None
+    #: build a section's fields only when it is first shown (keeps opening fast)
+    LAZY = True
 
     BINDINGS = [
         Binding("f9", "save", "Save", id="editor.save", tooltip="Check every field and save"),
@@ -45,7 +47,9 @@ class EditorScreen(Screen):
         super().__init__()
         self.key = key
         self.original: Any = None
-        self._initial: tuple | None = None
+        #: the form as loaded, per built section (sections are built when first shown)
+        self._initial_by_pane: dict[str, tuple] = {}
+        self._builders: dict[str, Any] = {}
         self.ready = False
         self.saving = False
 
@@ -62,8 +66,8 @@ class EditorScreen(Screen):
         name = self.key or "new"
         return f"{self.kind_label}: {name}"
 
-    def sections(self) -> list[tuple[str, str, list[Any]]]:
-        """[(pane id, pane title, widgets)] for the loaded record."""
+    def sections(self) -> list[tuple[str, str, Any]]:
+        """[(pane id, pane title, function returning the section's widgets)]."""
         raise NotImplementedError
 
     def load_record(self) -> Any:
@@ -92,14 +96,42 @@ class EditorScreen(Screen):
         await body.remove_children()
         tabs = TabbedContent(id="sections")
         await body.mount(tabs)
-        for pane_id, title, widgets in self.sections():
-            scroll = VerticalScroll(*widgets, classes="section")
-            await tabs.add_pane(TabPane(title, scroll, id=pane_id))
+        self._builders = {}
+        for index, (pane_id, title, builder) in enumerate(self.sections()):
+            self._builders[pane_id] = builder
+            await tabs.add_pane(TabPane(title, VerticalScroll(classes="section"), id=pane_id))
+            if index == 0 or not self.LAZY:
+                await self.build_pane(pane_id)
         self.ready = True
         self.call_after_refresh(self._after_show)
 
+    async def build_pane(self, pane_id: str) -> None:
+        """Mount a section's fields (done the first time the section is shown)."""
+        if pane_id in self._initial_by_pane:
+            return
+        self._initial_by_pane[pane_id] = ()  # building
+        tabs = self.query_one("#sections", TabbedContent)
+        scroll = tabs.get_pane(pane_id).query_one(VerticalScroll)
+        await scroll.mount_all(self._builders[pane_id]())
+        self.call_after_refresh(self._remember, pane_id)
+
+    def _remember(self, pane_id: str) -> None:
+        self._initial_by_pane[pane_id] = self.pane_snapshot(pane_id)
+        self.pane_built(pane_id)
+
+    def pane_built(self, pane_id: str) -> None:
+        """Hook: a section's widgets were just mounted."""
+
+    def built(self, pane_id: str) -> bool:
+        return pane_id in self._initial_by_pane
+
+    async def on_tabbed_content_tab_activated(self, event: TabbedContent.TabActivated) -> None:
+        pane_id = event.pane.id
+        if pane_id and self.ready and not self.built(pane_id):
+            await self.build_pane(pane_id)
+            self.call_after_refresh(self.focus_first_input)
+
     def _after_show(self) -> None:
-        self._initial = self.snapshot()
         self.focus_first_input()
         self.refresh_bindings()
 
@@ -123,22 +155,34 @@ class EditorScreen(Screen):
 
     # -- state -------------------------------------------------------------------------------
 
-    def containers(self) -> list[RecordBlock | RecordList]:
-        return [w for w in self.query("RecordBlock, RecordList") if block_of(w.parent) is None
-                and not isinstance(w.parent, RecordList)]
+    def containers(self, pane_id: str | None = None) -> list[RecordBlock | RecordList]:
+        """The top-level record blocks and lists (of one section, or of every built one)."""
+        root = self
+        if pane_id is not None:
+            root = self.query_one("#sections", TabbedContent).get_pane(pane_id)
+        return [
+            w for w in root.query("RecordBlock, RecordList")
+            if not isinstance(w.parent, RecordList) and block_of(w.parent) is None
+        ]
 
-    def snapshot(self) -> tuple:
-        return tuple(c.snapshot() for c in self.containers())
+    def pane_snapshot(self, pane_id: str) -> tuple:
+        return tuple(c.snapshot() for c in self.containers(pane_id))
+
+    def snapshot(self) -> dict[str, tuple]:
+        return {p: self.pane_snapshot(p) for p in self._initial_by_pane}
 
     def is_dirty(self) -> bool:
-        return self.ready and self._initial is not None and self.snapshot() != self._initial
+        if not self.ready:
+            return False
+        return any(self.pane_snapshot(p) != initial for p, initial in self._initial_by_pane.items())
 
     def discard(self) -> None:
         """Forget unsaved changes (the user chose to leave without saving)."""
-        self._initial = self.snapshot() if self.ready else None
+        self.mark_clean()
 
     def mark_clean(self) -> None:
-        self._initial = self.snapshot()
+        if self.ready:
+            self._initial_by_pane = self.snapshot()
 
     def problems(self) -> list[tuple[RuleField, str]]:
         out: list[tuple[RuleField, str]] = []

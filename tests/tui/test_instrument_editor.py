@@ -1,0 +1,277 @@
+"""The instrument editor driven from the keyboard: typing, rules shown beside the fields,
+saving, refusing invalid records, unsaved-change questions and concurrent edits.
+
+The rules themselves are the catalogue format's (docs/catalogue-format.md); the messages
+checked here are produced by vetting.records.rules, so the form and import agree."""
+
+from __future__ import annotations
+
+from textual.widgets import Input, TabbedContent
+
+from vetting.records.store import Store
+from vetting.tui.screens.catalogue import CatalogueScreen
+from vetting.tui.screens.instrument import InstrumentEditor
+from vetting.tui.widgets.confirm import Confirm
+from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField
+
+
+def _field(screen, selector: str, name: str) -> RuleField:
+    return screen.query_one(selector, RecordBlock).fields[name]
+
+
+async def _type_into(pilot, field: RuleField, text: str) -> None:
+    field.input.focus()
+    await pilot.pause()
+    field.input.value = ""
+    await pilot.press(*text)
+    await pilot.pause()
+
+
+async def _open_new(pilot, settle) -> InstrumentEditor:
+    await settle(pilot)
+    await pilot.press("ctrl+n")
+    await settle(pilot)
+    screen = pilot.app.screen
+    assert isinstance(screen, InstrumentEditor)
+    return screen
+
+
+async def test_new_instrument_typed_and_saved(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        editor = await _open_new(pilot, settle)
+        assert app.focused is _field(editor, ".description", "key").input
+        await pilot.press(*"sorting-drill", "tab")
+        await pilot.press(*"Sorting Drill")
+        await _type_into(pilot, _field(editor, ".description", "measures"), "filing-accuracy:primary")
+        await _type_into(pilot, _field(editor, ".description", "minutes"), "25")
+        assert editor.is_dirty()
+        # a new attribute is announced, not refused
+        assert "will be added" in (_field(editor, ".description", "measures").note or "")
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+        assert not editor.is_dirty()
+        assert _field(editor, ".description", "key").input.disabled  # the key is fixed once saved
+        # back on the catalogue the new row is there without a reload
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)
+        assert [r.key for r in app.screen.rows] == ["sorting-drill"]
+    with Store.open(db_url) as store:
+        inst = store.instrument("sorting-drill")
+        assert inst.title == "Sorting Drill" and inst.minutes == 25
+        assert [m.attribute for m in inst.measures] == ["filing-accuracy"]
+        assert "filing-accuracy" in store.attribute_keys()
+
+
+async def test_rules_show_beside_the_field_and_block_saving(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        editor = await _open_new(pilot, settle)
+        minutes = _field(editor, ".description", "minutes")
+        await _type_into(pilot, minutes, "-5")
+        # format rule: minutes > 0 (docs/catalogue-format.md)
+        message = str(minutes.query_one(".field-message").render())
+        assert message.startswith("✗ minutes must be a number greater than 0")
+        assert minutes.has_class("-invalid")
+        await _type_into(pilot, minutes, "30")
+        assert minutes.error is None
+        assert not minutes.query_one(".field-message").display
+        # a reliability coefficient of 1.5 breaks the 0 < value < 1 rule
+        await pilot.press("ctrl+o")  # next section: reliability
+        await settle(pilot)
+        assert editor.query_one("#sections", TabbedContent).active == "reliability"
+        await pilot.press("ctrl+n")
+        await settle(pilot)
+        block = editor.query_one("#list-reliability", RecordList).blocks[0]
+        await _type_into(pilot, block.fields["type"], "internal")
+        await _type_into(pilot, block.fields["value"], "1.5")
+        assert "less than 1" in block.fields["value"].error
+        # a cross-field rule, pinned to the field it names: interval only for retest
+        await _type_into(pilot, block.fields["interval_days"], "14")
+        assert "applies only to type 'retest'" in block.fields["interval_days"].error
+        await pilot.press("f9")
+        await settle(pilot)
+        banner = str(editor.query_one("#banner").render())
+        assert banner.startswith("✗ Not saved")
+        # the first problem is in the description (key, title, measures are required)
+        assert editor.query_one("#sections", TabbedContent).active == "describe"
+        assert "required" in banner
+    with Store.open(db_url) as store:
+        assert store.instrument_keys() == []
+
+
+async def test_norm_table_must_increase(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        editor = app.screen
+        editor.query_one("#sections", TabbedContent).active = "norms"
+        await settle(pilot)
+        block = editor.query_one("#list-norms", RecordList).blocks[0]
+        assert block.fields["table"].text == "10=16, 50=24, 90=32"
+        await _type_into(pilot, block.fields["table"], "10=16, 50=14")
+        assert "raw scores must increase" in block.fields["table"].error
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Not saved" in str(editor.query_one("#banner").render())
+    with Store.open(seeded_url) as store:
+        assert [p.raw for p in store.instrument("tally-quick").norms[0].table] == [16, 24, 32]
+
+
+async def test_editing_evidence_round_trips_through_the_store(seeded_url, app_for, settle):
+    with Store.open(seeded_url) as store:
+        before = store.instrument("tally-quick")
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        editor = app.screen
+        await _type_into(pilot, _field(editor, ".description", "minutes"), "22")
+        editor.query_one("#sections", TabbedContent).active = "validity"
+        await settle(pilot)
+        await pilot.press("ctrl+n")
+        await settle(pilot)
+        block = editor.query_one("#list-validity", RecordList).blocks[-1]
+        await _type_into(pilot, block.fields["criterion"], "turnover")
+        await _type_into(pilot, block.fields["r"], "-0.2")
+        await _type_into(pilot, block.fields["n"], "150")
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+    with Store.open(seeded_url) as store:
+        after = store.instrument("tally-quick")
+    assert after.minutes == 22
+    assert after.row_version == before.row_version + 1
+    assert [(v.criterion, v.r, v.n) for v in after.validity] == [("job-performance", 0.31, 220), ("turnover", -0.2, 150)]
+    # everything not touched is kept exactly
+    assert after.reliability == before.reliability
+    assert after.norms == before.norms
+    assert after.sample_copy == before.sample_copy
+    assert after.subgroup_differences == before.subgroup_differences
+
+
+async def test_removing_an_entry(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        editor = app.screen
+        editor.query_one("#sections", TabbedContent).active = "reliability"
+        await settle(pilot)
+        rel = editor.query_one("#list-reliability", RecordList)
+        rel.blocks[1].fields["value"].input.focus()
+        await pilot.press("ctrl+y")
+        await settle(pilot)
+        assert len(rel.blocks) == 1
+        assert editor.is_dirty()
+        await pilot.press("f9")
+        await settle(pilot)
+    with Store.open(seeded_url) as store:
+        assert [r.type for r in store.instrument("tally-quick").reliability] == ["internal"]
+
+
+async def test_leaving_with_unsaved_changes_asks(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        app.open_instrument("ledger-scan")
+        await settle(pilot)
+        editor = app.screen
+        await _type_into(pilot, _field(editor, ".description", "title"), "Changed title")
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        assert "Unsaved changes in instrument ledger-scan" in app.screen.question
+        await pilot.press("n")  # stay
+        await settle(pilot)
+        assert app.screen is editor
+        assert _field(editor, ".description", "title").text == "Changed title"
+        # F-key navigation asks too
+        await pilot.press("f3")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("escape")
+        await settle(pilot)
+        assert app.screen is editor
+        # quitting asks as well
+        await pilot.press("ctrl+q")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("n")
+        await settle(pilot)
+        await pilot.press("escape")
+        await settle(pilot)
+        await pilot.press("y")  # leave without saving
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)
+    with Store.open(seeded_url) as store:
+        assert store.instrument("ledger-scan").title == "Ledger Scan Checking Task"
+
+
+async def test_unchanged_editor_leaves_without_asking(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        app.open_instrument("calm-index")
+        await settle(pilot)
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)
+
+
+async def test_concurrent_edit_is_refused_and_names_who(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("calm-index")
+        await settle(pilot)
+        editor = app.screen
+        # someone else saves the same instrument meanwhile
+        with Store.open(seeded_url, user="other-person") as other:
+            theirs = other.instrument("calm-index")
+            theirs.minutes = 18
+            other.save_instrument(theirs)
+        await _type_into(pilot, _field(editor, ".description", "minutes"), "40")
+        await pilot.press("f9")
+        await settle(pilot)
+        banner = str(editor.query_one("#banner").render())
+        assert banner.startswith("✗ Not saved: other-person changed instrument calm-index")
+        assert editor.is_dirty()  # what was typed is still there
+        assert _field(editor, ".description", "minutes").text == "40"
+    with Store.open(seeded_url) as store:
+        assert store.instrument("calm-index").minutes == 18  # theirs, not overwritten
+
+
+async def test_new_instrument_with_a_key_in_use_is_refused(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        editor = await _open_new(pilot, settle)
+        await _type_into(pilot, _field(editor, ".description", "key"), "calm-index")
+        await _type_into(pilot, _field(editor, ".description", "title"), "Another")
+        await _type_into(pilot, _field(editor, ".description", "measures"), "steadiness")
+        await _type_into(pilot, _field(editor, ".description", "minutes"), "5")
+        await pilot.press("f9")
+        await settle(pilot)
+        banner = str(editor.query_one("#banner").render())
+        assert "already exists" in banner and banner.startswith("✗ Not saved")
+    with Store.open(seeded_url) as store:
+        assert store.instrument("calm-index").title == "Calm Index Inventory"
+
+
+async def test_enum_fields_suggest_allowed_values(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        editor = await _open_new(pilot, settle)
+        field = _field(editor, ".description", "user_qualification")
+        await _type_into(pilot, field, "lic")
+        assert "'lic' is not allowed" in field.error
+        await pilot.press("right")  # accept the suggestion
+        await pilot.pause()
+        assert field.text == "licensed" and field.error is None
+        assert isinstance(field.input, Input)
