@@ -16,9 +16,13 @@ def _missing(x) -> bool:
     return x is None or (isinstance(x, float) and math.isnan(x))
 
 
+def _no_negative_zero(text: str) -> str:
+    return text[1:] if text.startswith("-") and set(text[1:]) <= set("0.,") else text
+
+
 def r2(x) -> str:
     """A correlation, reliability or 0..1 figure: two decimals."""
-    return DASH if _missing(x) else f"{float(x):.2f}"
+    return DASH if _missing(x) else _no_negative_zero(f"{float(x):.2f}")
 
 
 def r3(x) -> str:

@@ -90,7 +90,9 @@ def _add_table(doc, table: Table) -> None:
             cells[i].text = _t(value)
             if i in table.numeric:
                 cells[i].paragraphs[0].alignment = WD_ALIGN_PARAGRAPH.RIGHT
-    widths = _column_widths(table)
+    wide = len(table.columns) >= 8
+    font = Pt(7.5) if wide else Pt(8.5)
+    widths = _column_widths(table, chars_per_cm=6.3 if wide else 5.6)
     t.autofit = False
     for i, width in enumerate(widths):
         t.columns[i].width = width
@@ -101,7 +103,7 @@ def _add_table(doc, table: Table) -> None:
             for p in cell.paragraphs:
                 p.paragraph_format.space_after = Pt(0)
                 for run in p.runs:
-                    run.font.size = Pt(8.5)
+                    run.font.size = font
     doc.add_paragraph().paragraph_format.space_after = Pt(2)
 
 
@@ -109,34 +111,42 @@ def _add_table(doc, table: Table) -> None:
 TEXT_WIDTH_CM = 17.0
 
 
-def _column_widths(table: Table):
-    """Share the text width among columns by how much text each holds: the longest word sets a
-    floor (so words are not split), the longest cell sets the wish, within sensible limits."""
+def _column_widths(table: Table, chars_per_cm: float = 5.6):
+    """Share the text width among columns by how much text each holds. The longest word sets a
+    floor (so numbers and words are not split), the longest cell sets the wish. When the floors
+    alone do not fit, short columns (numbers, PASS/FAIL) keep theirs and the long-text columns,
+    which can wrap between words, share what is left."""
     from docx.shared import Cm
 
     n = len(table.columns)
-    floors, wishes = [], []
+    floors, wishes, short = [], [], []
     for i, name in enumerate(table.columns):
-        cells = [name] + [row[i] for row in table.rows if i < len(row)]
+        body = [row[i] for row in table.rows if i < len(row)]
+        cells = [name] + body
         longest_word = max((len(w) for c in cells for w in str(c).split()), default=1)
         longest_cell = max((len(str(c)) for c in cells), default=1)
-        floors.append(min(max(longest_word, 3), 18))
-        wishes.append(min(max(longest_cell, 4), 60))
-    total_wish = sum(wishes)
-    chars_per_cm = 6.0  # 8.5 pt text, bold headers included
+        floors.append(min(max(longest_word, 3), 16) + 1)
+        wishes.append(min(max(longest_cell, 4), 60) + 1)
+        # short: the body holds only short items (numbers, PASS/FAIL), whatever the header says
+        short.append(max((len(str(c)) for c in body), default=1) <= 9)
+    # chars_per_cm: about 5.6 for 8.5 pt text, bold headers included
     padding_cm = 0.40  # the cell's left and right margins
     avail = (TEXT_WIDTH_CM - n * padding_cm) * chars_per_cm
+    total_wish = sum(wishes)
     if total_wish <= avail:
         chars = [w * avail / total_wish for w in wishes]
+    elif sum(floors) <= avail:
+        extra = avail - sum(floors)
+        spare = [max(w - f, 0) for w, f in zip(wishes, floors)]
+        spare_total = sum(spare) or 1
+        chars = [f + extra * sp / spare_total for f, sp in zip(floors, spare)]
     else:
-        floor_total = sum(floors)
-        if floor_total >= avail:
-            chars = [f * avail / floor_total for f in floors]
-        else:
-            extra = avail - floor_total
-            spare = [max(w - f, 0) for w, f in zip(wishes, floors)]
-            spare_total = sum(spare) or 1
-            chars = [f + extra * sp / spare_total for f, sp in zip(floors, spare)]
+        fixed = sum(f for f, sh in zip(floors, short) if sh)
+        rest = max(avail - fixed, avail * 0.3)
+        long_total = sum(f for f, sh in zip(floors, short) if not sh) or 1
+        chars = [f if sh else f * rest / long_total for f, sh in zip(floors, short)]
+        scale = avail / sum(chars)
+        chars = [c * min(1.0, scale) for c in chars]
     return [Cm(c / chars_per_cm + padding_cm) for c in chars[:n]]
 
 
