@@ -1,0 +1,168 @@
+"""The jobs list and job editor: creating a job with requirements, policy weights checked as
+typed, saving makes policy versions, and locking freezes a version on record.
+
+Policy rules (weights non-negative and not all 0; locking fixes a version with a time) are
+the project's stated rules (issue 4; common practice, no published source)."""
+
+from __future__ import annotations
+
+from textual.widgets import DataTable, TabbedContent
+
+from vetting.records.store import Store
+from vetting.tui.screens.job import JobEditor, JobsScreen
+from vetting.tui.widgets.confirm import Confirm
+from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField
+
+
+async def _type_into(pilot, field: RuleField, text: str) -> None:
+    field.input.focus()
+    await pilot.pause()
+    field.input.value = ""
+    if text:
+        await pilot.press(*text)
+    await pilot.pause()
+
+
+async def test_jobs_list_and_current_job(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        await settle(pilot)
+        screen = app.screen
+        assert isinstance(screen, JobsScreen)
+        table = screen.query_one(DataTable)
+        assert table.row_count == 1
+        row = [str(c) for c in table.get_row_at(0)]
+        assert row[:3] == ["claims-clerk", "Claims clerk", "2 attr"]
+        assert row[3] == "v1 open"
+        assert app.current_job == "claims-clerk"
+        await pilot.press("enter")
+        await settle(pilot)
+        assert isinstance(app.screen, JobEditor)
+        assert app.screen.original.key == "claims-clerk"
+
+
+async def test_new_job_with_three_attributes(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        await settle(pilot)
+        await pilot.press("ctrl+n")
+        await settle(pilot)
+        editor = app.screen
+        assert isinstance(editor, JobEditor)
+        profile = editor.query_one(".job-profile", RecordBlock).fields
+        await _type_into(pilot, profile["key"], "records-officer")
+        await _type_into(pilot, profile["title"], "Records officer")
+        await _type_into(pilot, profile["applicants_per_year"], "40")
+        await _type_into(pilot, profile["hires_per_year"], "50")
+        # cross-field rule from import: hires may not exceed applicants
+        assert "must not exceed applicants_per_year" in profile["hires_per_year"].error
+        await _type_into(pilot, profile["hires_per_year"], "4")
+        assert profile["hires_per_year"].error is None
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        reqs = editor.query_one("#list-requirements", RecordList)
+        await _type_into(pilot, reqs.blocks[0].fields["attribute"], "filing-accuracy")
+        assert "new attribute" in reqs.blocks[0].fields["attribute"].note
+        for name in ("reading-speed", "tact"):
+            await pilot.press("ctrl+n")
+            await settle(pilot)
+            await _type_into(pilot, reqs.blocks[-1].fields["attribute"], name)
+        await _type_into(pilot, reqs.blocks[0].fields["importance"], "7")
+        assert "from 1 to 5" in reqs.blocks[0].fields["importance"].error
+        await _type_into(pilot, reqs.blocks[0].fields["importance"], "5")
+        await _type_into(pilot, reqs.blocks[0].fields["critical"], "yes")
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+        assert app.current_job == "records-officer"
+    with Store.open(db_url) as store:
+        job = store.job("records-officer")
+        assert [(r.attribute, r.importance, r.critical) for r in job.requirements] == [
+            ("filing-accuracy", 5, True), ("reading-speed", 3, False), ("tact", 3, False)
+        ]
+        assert job.hires_per_year == 4 and job.applicants_per_year == 40
+        assert {"filing-accuracy", "reading-speed", "tact"} <= store.attribute_keys()
+        assert job.policy.version == 1
+
+
+async def test_weights_all_zero_are_refused(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        editor.query_one("#sections", TabbedContent).active = "policy"
+        await settle(pilot)
+        weights = editor.query_one(".policy-weights", RecordBlock).fields
+        await _type_into(pilot, weights["coverage"], "-1")
+        assert "from 0" in weights["coverage"].error
+        for field in weights.values():
+            await _type_into(pilot, field, "0")
+        problems = [f.error for f in weights.values() if f.error]
+        assert any("must not all be 0" in p for p in problems)
+        await pilot.press("f9")
+        await settle(pilot)
+        assert str(editor.query_one("#banner").render()).startswith("✗ Not saved")
+    with Store.open(seeded_url) as store:
+        assert len(store.policy_versions("claims-clerk")) == 1
+
+
+async def test_policy_change_makes_a_version_and_lock_freezes_it(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        editor.query_one("#sections", TabbedContent).active = "policy"
+        await settle(pilot)
+        # lock version 1 first
+        await pilot.press("ctrl+k")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("y")
+        await settle(pilot)
+        assert "Locked policy v1" in str(editor.query_one("#banner").render())
+        assert "locked" in str(editor.query_one("#policy-state").render())
+        # locking again is refused with a reason
+        await pilot.press("ctrl+k")
+        await settle(pilot)
+        assert app.screen is editor
+        # a changed rule after the lock makes version 2; version 1 stays locked on record
+        rules_block = editor.query_one(".policy-rules", RecordBlock).fields
+        await _type_into(pilot, rules_block["min_reliability"], "0.85")
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+    with Store.open(seeded_url) as store:
+        versions = store.policy_versions("claims-clerk")
+        assert [v.version for v in versions] == [1, 2]
+        assert versions[0].locked and not versions[1].locked
+        assert versions[1].min_reliability == 0.85
+        assert store.job("claims-clerk").policy.version == 2
+
+
+async def test_job_editor_asks_before_leaving(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        await settle(pilot)
+        await pilot.press("enter")
+        await settle(pilot)
+        editor = app.screen
+        profile = editor.query_one(".job-profile", RecordBlock).fields
+        await _type_into(pilot, profile["title"], "Claims clerk II")
+        await pilot.press("f2")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("y")
+        await settle(pilot)
+        assert app.screen.__class__.__name__ == "CatalogueScreen"
+    with Store.open(seeded_url) as store:
+        assert store.job("claims-clerk").title == "Claims clerk"
