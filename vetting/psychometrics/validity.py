@@ -3,7 +3,7 @@
 * Correction for attenuation: Spearman (1904); criterion-only ("operational validity") or
   both measures (Hunter & Schmidt, 2004, *Methods of Meta-Analysis*, 2nd ed., ch. 3).
 * Thorndike Case II for direct range restriction on the predictor: Thorndike (1949),
-  *Personnel Selection*, p. 173-174; the same formula as Pearson (1903).
+  *Personnel Selection* ("Case II"); the same formula as Pearson (1903).
 * Bare-bones meta-analysis: Hunter & Schmidt (2004), ch. 3 (sample-size-weighted mean r,
   weighted observed variance, sampling-error variance (1 − r̄²)² / (N̄ − 1), residual
   variance, 80% credibility interval).
