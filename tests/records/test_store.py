@@ -303,3 +303,15 @@ def test_decisions_are_kept_and_found_by_fingerprint(store):
     store.delete_job("dock-pump-operator")
     assert [d.id for d in store.decisions("dock-pump-operator")] == [d1, d2]
     assert [e.entity for e in store.audit_events(job="dock-pump-operator")].count("decision") == 2
+
+
+def test_policy_rules_come_back_exactly_as_saved_even_in_another_order(store):
+    store.import_catalogue(S.catalogue())
+    job = S.full_job()
+    job.policy.relevant_criteria = ["training", "job-performance"]
+    job.policy.weights = dict(reversed(list(job.policy.weights.items())))
+    store.import_catalogue(Catalogue(jobs=[job]), replace=True)
+    got = store.export_catalogue(jobs=[job.key]).jobs[0].policy
+    assert got.relevant_criteria == ["training", "job-performance"]
+    assert list(got.weights) == list(job.policy.weights)
+    assert store.job(job.key).policy.version == 2

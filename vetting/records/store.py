@@ -30,23 +30,15 @@ from sqlalchemy.exc import DBAPIError, IntegrityError, OperationalError, SQLAlch
 from sqlalchemy.orm import Session, selectinload
 
 from vetting.records import engine as engines
+from vetting.records import instrument_io
 from vetting.records import models as m
 from vetting.records.domain import (
     Attribute,
     Catalogue,
     Instrument,
     Job,
-    Measure,
-    NormGroup,
-    PercentilePoint,
     Policy,
-    Reliability,
     Requirement,
-    Review,
-    SampleCheck,
-    SampleCopy,
-    SubgroupDifference,
-    ValidityStudy,
 )
 from vetting.records.errors import (
     CatalogueError,
@@ -60,6 +52,8 @@ from vetting.records.errors import (
 from vetting.records.results import DECISION_STATUSES, AuditEvent, Decision
 
 SQLITE_MAGIC = b"SQLite format 3\x00"
+INST = m.InstrumentRow.__table__
+AUDIT = m.AuditEventRow.__table__
 
 
 # ---------------------------------------------------------------------------
@@ -118,171 +112,7 @@ def _listing(keys: Iterable[str], limit: int = 10) -> str:
 # row <-> domain conversion (only here)
 # ---------------------------------------------------------------------------
 
-_INSTRUMENT_LOAD = (
-    selectinload(m.InstrumentRow.measures),
-    selectinload(m.InstrumentRow.reliability),
-    selectinload(m.InstrumentRow.validity),
-    selectinload(m.InstrumentRow.norms).selectinload(m.NormGroupRow.points),
-    selectinload(m.InstrumentRow.subgroup_differences),
-    selectinload(m.InstrumentRow.reviews),
-    selectinload(m.InstrumentRow.sample_copies).selectinload(m.SampleCopyRow.checks),
-)
 _JOB_LOAD = (selectinload(m.JobRow.requirements), selectinload(m.JobRow.policies))
-
-
-def _instrument_from_row(r: m.InstrumentRow) -> Instrument:
-    sample = None
-    if r.sample_copies:
-        s = r.sample_copies[0]
-        sample = SampleCopy(
-            requested=s.requested,
-            received=s.received,
-            checked_by=s.checked_by,
-            checks=[SampleCheck(item=c.item, result=c.result, note=c.note) for c in s.checks],
-        )
-    return Instrument(
-        key=r.key,
-        title=r.title,
-        measures=[Measure(attribute=x.attribute_key, fit=x.fit) for x in r.measures],
-        minutes=r.minutes,
-        publisher=r.publisher,
-        edition=r.edition,
-        year=r.year,
-        mode=list(r.mode or []),
-        reading_grade=r.reading_grade,
-        cost_per_applicant=r.cost_per_applicant,
-        currency=r.currency,
-        user_qualification=r.user_qualification,
-        accommodations=list(r.accommodations or []),
-        languages=list(r.languages or []),
-        reliability=[
-            Reliability(
-                type=x.type, value=x.value, n=x.n, interval_days=x.interval_days, sample=x.sample, source=x.source
-            )
-            for x in r.reliability
-        ],
-        validity=[
-            ValidityStudy(
-                criterion=x.criterion,
-                r=x.r,
-                n=x.n,
-                design=x.design,
-                corrected=x.corrected,
-                job_family=x.job_family,
-                sample=x.sample,
-                source=x.source,
-            )
-            for x in r.validity
-        ],
-        norms=[
-            NormGroup(
-                key=x.key,
-                group=x.group_label,
-                n=x.n,
-                year=x.year,
-                scope=x.scope,
-                mean=x.mean,
-                sd=x.sd,
-                occupation=x.occupation,
-                table=[PercentilePoint(percentile=p.percentile, raw=p.raw) for p in x.points],
-            )
-            for x in r.norms
-        ],
-        subgroup_differences=[
-            SubgroupDifference(groups=x.groups, d=x.d, n=x.n, source=x.source) for x in r.subgroup_differences
-        ],
-        reviews=[
-            Review(date=x.review_date, by=x.reviewed_by, note=x.note, stance=x.stance, source=x.source)
-            for x in r.reviews
-        ],
-        sample_copy=sample,
-        row_version=r.row_version,
-    )
-
-
-def _fill_instrument_row(r: m.InstrumentRow, inst: Instrument) -> None:
-    """Copy every field of `inst` onto `r`, children included (the old children are orphaned)."""
-    r.key = inst.key
-    r.title = inst.title
-    r.publisher = inst.publisher
-    r.edition = inst.edition
-    r.year = inst.year
-    r.minutes = inst.minutes
-    r.reading_grade = inst.reading_grade
-    r.cost_per_applicant = inst.cost_per_applicant
-    r.currency = inst.currency
-    r.user_qualification = inst.user_qualification
-    r.mode = list(inst.mode)
-    r.accommodations = list(inst.accommodations)
-    r.languages = list(inst.languages)
-    r.measures = [m.MeasureRow(position=i, attribute_key=x.attribute, fit=x.fit) for i, x in enumerate(inst.measures)]
-    r.reliability = [
-        m.ReliabilityRow(
-            position=i,
-            type=x.type,
-            value=x.value,
-            n=x.n,
-            interval_days=x.interval_days,
-            sample=x.sample,
-            source=x.source,
-        )
-        for i, x in enumerate(inst.reliability)
-    ]
-    r.validity = [
-        m.ValidityStudyRow(
-            position=i,
-            criterion=x.criterion,
-            r=x.r,
-            n=x.n,
-            design=x.design,
-            corrected=x.corrected,
-            job_family=x.job_family,
-            sample=x.sample,
-            source=x.source,
-        )
-        for i, x in enumerate(inst.validity)
-    ]
-    r.norms = [
-        m.NormGroupRow(
-            position=i,
-            key=x.key,
-            group_label=x.group,
-            n=x.n,
-            year=x.year,
-            scope=x.scope,
-            occupation=x.occupation,
-            mean=x.mean,
-            sd=x.sd,
-            points=[m.NormPointRow(position=j, percentile=p.percentile, raw=p.raw) for j, p in enumerate(x.table)],
-        )
-        for i, x in enumerate(inst.norms)
-    ]
-    r.subgroup_differences = [
-        m.SubgroupDifferenceRow(position=i, groups=x.groups, d=x.d, n=x.n, source=x.source)
-        for i, x in enumerate(inst.subgroup_differences)
-    ]
-    r.reviews = [
-        m.ReviewRow(
-            position=i, review_date=x.date, reviewed_by=x.by, note=x.note, stance=x.stance, source=x.source
-        )
-        for i, x in enumerate(inst.reviews)
-    ]
-    s = inst.sample_copy
-    r.sample_copies = (
-        []
-        if s is None
-        else [
-            m.SampleCopyRow(
-                requested=s.requested,
-                received=s.received,
-                checked_by=s.checked_by,
-                checks=[
-                    m.SampleCheckRow(position=j, item=c.item, result=c.result, note=c.note)
-                    for j, c in enumerate(s.checks)
-                ],
-            )
-        ]
-    )
 
 
 def _policy_from_row(p: m.PolicyVersionRow) -> Policy:
@@ -296,6 +126,17 @@ def _policy_from_row(p: m.PolicyVersionRow) -> Policy:
         version=p.version,
         locked_at=_utc(p.locked_at),
         created_at=_utc(p.created_at),
+    )
+
+
+def _rules(p: Policy) -> tuple:
+    return (
+        p.min_reliability,
+        p.max_norm_age_years,
+        p.impact_ratio_floor,
+        list(p.weights.items()),
+        list(p.relevant_criteria),
+        list(p.relevant_job_families),
     )
 
 
@@ -460,20 +301,26 @@ class Store:
         except OperationalError as exc:
             raise DatabaseUnavailable(_unavailable_message(self.url, exc)) from None
 
+    def _audit_row(self, action: str, entity: str, key: str, before: Any = None, after: Any = None) -> dict:
+        return {
+            "at": utcnow(),
+            "who": self.user,
+            "action": action,
+            "entity": entity,
+            "key": key,
+            "before": _jsonable(before),
+            "after": _jsonable(after),
+        }
+
     def _audit(
         self, s: Session, action: str, entity: str, key: str, before: Any = None, after: Any = None
     ) -> None:
-        s.add(
-            m.AuditEventRow(
-                at=utcnow(),
-                who=self.user,
-                action=action,
-                entity=entity,
-                key=key,
-                before=_jsonable(before),
-                after=_jsonable(after),
-            )
-        )
+        s.execute(insert(AUDIT), [self._audit_row(action, entity, key, before, after)])
+
+    @staticmethod
+    def _audit_many(s: Session, rows: list[dict]) -> None:
+        for start in range(0, len(rows), 2000):
+            s.execute(insert(AUDIT), rows[start:start + 2000])
 
     # -- attributes ------------------------------------------------------------
 
@@ -509,8 +356,7 @@ class Store:
     def instruments(self) -> list[Instrument]:
         """Every instrument with all its evidence (one query per kind of evidence, no N+1)."""
         with self._read() as s:
-            rows = s.scalars(select(m.InstrumentRow).options(*_INSTRUMENT_LOAD).order_by(m.InstrumentRow.id)).all()
-            return [_instrument_from_row(r) for r in rows]
+            return instrument_io.load(s)
 
     def instrument_keys(self) -> list[str]:
         with self._read() as s:
@@ -518,62 +364,46 @@ class Store:
 
     def instrument(self, key: str) -> Instrument:
         with self._read() as s:
-            row = s.scalars(
-                select(m.InstrumentRow).options(*_INSTRUMENT_LOAD).where(m.InstrumentRow.key == key)
-            ).one_or_none()
-            if row is None:
+            found = instrument_io.load(s, INST.c.key == key)
+            if not found:
                 raise NotFound(self._not_found_message(s, "instrument", key))
-            return _instrument_from_row(row)
+            return found[0]
 
     def save_instrument(self, inst: Instrument) -> Instrument:
-        """Create the instrument, or update it when inst.row_version is the stored version."""
+        """Create the instrument, or update it when inst.row_version is the stored version
+        (ConcurrentEdit otherwise, naming who saved it last and when). Returns the stored object
+        with its new row_version."""
         with self._write() as s:
             self._check_attributes(s, [x.attribute for x in inst.measures], f"instrument {inst.key!r}")
-            row = self._locked_row(s, m.InstrumentRow, inst.key, _INSTRUMENT_LOAD)
-            if row is None:
+            head = self._head(s, INST, inst.key)
+            if head is None:
                 if inst.row_version is not None:
                     raise NotFound(
                         f"instrument {inst.key!r} no longer exists (someone deleted it after you opened it); "
                         "nothing was saved"
                     )
-                self._create_instrument(s, inst)
+                instrument_io.insert_new(s, [inst], who=self.user, now=utcnow())
+                self._audit(s, "create", "instrument", inst.key, None, _catalogue_copy(inst))
             else:
-                self._check_version(row, inst.row_version, "instrument", inst.key)
-                self._replace_instrument(s, row, inst)
-        return self.instrument(inst.key)
-
-    def _create_instrument(self, s: Session, inst: Instrument) -> None:
-        now = utcnow()
-        row = m.InstrumentRow(
-            key=inst.key, title=inst.title, minutes=inst.minutes, row_version=1,
-            created_at=now, updated_at=now, updated_by=self.user,
-        )
-        _fill_instrument_row(row, inst)
-        s.add(row)
-        self._audit(s, "create", "instrument", inst.key, None, _catalogue_copy(inst))
-
-    def _replace_instrument(self, s: Session, row: m.InstrumentRow, inst: Instrument) -> None:
-        before = _catalogue_copy(_instrument_from_row(row))
-        # drop the old evidence first: a one-to-one sample copy must be gone before its successor lands
-        for name in ("measures", "reliability", "validity", "norms", "subgroup_differences", "reviews", "sample_copies"):
-            setattr(row, name, [])
-        s.flush()
-        _fill_instrument_row(row, inst)
-        row.row_version += 1
-        row.updated_at = utcnow()
-        row.updated_by = self.user
-        self._audit(s, "update", "instrument", inst.key, before, _catalogue_copy(inst))
+                self._check_version(head, inst.row_version, "instrument", inst.key)
+                [before] = instrument_io.load(s, INST.c.id == head.id)
+                instrument_io.replace(s, head.id, inst, who=self.user, now=utcnow())
+                self._audit(s, "update", "instrument", inst.key, _catalogue_copy(before), _catalogue_copy(inst))
+            [saved] = instrument_io.load(s, INST.c.key == inst.key)
+            return saved
 
     def delete_instrument(self, key: str, *, row_version: int | None = None) -> None:
+        """Delete the instrument and its evidence. With `row_version`, only if it is still the
+        stored version (ConcurrentEdit otherwise); without, whatever version is stored."""
         with self._write() as s:
-            row = self._locked_row(s, m.InstrumentRow, key, _INSTRUMENT_LOAD)
-            if row is None:
+            head = self._head(s, INST, key)
+            if head is None:
                 raise NotFound(self._not_found_message(s, "instrument", key))
-            if row_version is not None:  # None: delete whatever version is stored
-                self._check_version(row, row_version, "instrument", key)
-            before = _catalogue_copy(_instrument_from_row(row))
-            s.delete(row)
-            self._audit(s, "delete", "instrument", key, before, None)
+            if row_version is not None:
+                self._check_version(head, row_version, "instrument", key)
+            [before] = instrument_io.load(s, INST.c.id == head.id)
+            instrument_io.remove(s, head.id)
+            self._audit(s, "delete", "instrument", key, _catalogue_copy(before), None)
 
     # -- jobs and policies -----------------------------------------------------
 
@@ -633,7 +463,8 @@ class Store:
     def _new_policy_version(self, s: Session, row: m.JobRow, policy: Policy) -> bool:
         """Append a policy version when `policy` has other rules than the current one."""
         current = row.policies[-1] if row.policies else None
-        if current is not None and _policy_from_row(current).same_rules(policy):
+        # exact comparison (list order included), so what was saved is what comes back
+        if current is not None and _rules(_policy_from_row(current)) == _rules(policy):
             return False
         version = (current.version + 1) if current is not None else 1
         new = _policy_row(policy, version, self.user)
@@ -824,12 +655,7 @@ class Store:
 
             inst_keys = [x.key for x in cat.instruments]
             job_keys = [x.key for x in cat.jobs]
-            existing_inst = {
-                r.key: r
-                for r in s.scalars(
-                    select(m.InstrumentRow).options(*_INSTRUMENT_LOAD).where(m.InstrumentRow.key.in_(inst_keys))
-                ).all()
-            } if inst_keys else {}
+            existing_inst = self._heads_by_keys(s, INST, inst_keys)
             existing_jobs = {
                 r.key: r
                 for r in s.scalars(select(m.JobRow).options(*_JOB_LOAD).where(m.JobRow.key.in_(job_keys))).all()
@@ -852,15 +678,24 @@ class Store:
                 elif done == "updated":
                     counts["attributes_updated"] += 1
             s.flush()
-            for inst in cat.instruments:
-                row = existing_inst.get(inst.key)
-                if row is None:
-                    self._create_instrument(s, inst)
-                    counts["created"] += 1
-                else:
-                    self._replace_instrument(s, row, inst)
-                    counts["replaced"] += 1
-                counts["instruments"] += 1
+            now = utcnow()
+            new = [x for x in cat.instruments if x.key not in existing_inst]
+            instrument_io.insert_new(s, new, who=self.user, now=now)
+            audit = [self._audit_row("create", "instrument", x.key, None, _catalogue_copy(x)) for x in new]
+            old = [x for x in cat.instruments if x.key in existing_inst]
+            befores: dict[str, Instrument] = {}
+            for start in range(0, len(old), 2000):
+                part = [x.key for x in old[start:start + 2000]]
+                befores.update((b.key, b) for b in instrument_io.load(s, INST.c.key.in_(part)))
+            for x in old:
+                instrument_io.replace(s, existing_inst[x.key].id, x, who=self.user, now=now)
+                audit.append(
+                    self._audit_row("update", "instrument", x.key, _catalogue_copy(befores[x.key]), _catalogue_copy(x))
+                )
+            self._audit_many(s, audit)
+            counts["created"] += len(new)
+            counts["replaced"] += len(old)
+            counts["instruments"] += len(cat.instruments)
             for job in cat.jobs:
                 row = existing_jobs.get(job.key)
                 if row is None:
@@ -896,15 +731,14 @@ class Store:
         catalogue file would give them."""
         with self._read() as s:
             everything = jobs is None and instruments is None
-            q_inst = select(m.InstrumentRow).options(*_INSTRUMENT_LOAD).order_by(m.InstrumentRow.id)
             q_job = select(m.JobRow).options(*_JOB_LOAD).order_by(m.JobRow.id)
             if everything:
-                inst_rows = s.scalars(q_inst).all()
+                found = instrument_io.load(s)
                 job_rows = s.scalars(q_job).all()
             else:
-                inst_rows = self._rows_by_keys(s, q_inst, m.InstrumentRow, instruments or [], "instrument")
+                found = self._instruments_by_keys(s, instruments or [])
                 job_rows = self._rows_by_keys(s, q_job, m.JobRow, jobs or [], "job")
-            out_inst = [_catalogue_copy(_instrument_from_row(r)) for r in inst_rows]
+            out_inst = [_catalogue_copy(x) for x in found]
             out_jobs = [_catalogue_copy(_job_from_row(r)) for r in job_rows]
             attr_rows = s.scalars(select(m.AttributeRow).order_by(m.AttributeRow.id)).all()
             if not everything:
@@ -914,6 +748,38 @@ class Store:
                 attr_rows = [a for a in attr_rows if a.key in needed]
             attrs = [Attribute(key=a.key, name=a.name, kind=a.kind) for a in attr_rows]
             return Catalogue(attributes=attrs, instruments=out_inst, jobs=out_jobs)
+
+    @staticmethod
+    def _instruments_by_keys(s: Session, keys: list[str]) -> list[Instrument]:
+        keys = list(dict.fromkeys(keys))
+        found: dict[str, Instrument] = {}
+        for start in range(0, len(keys), 2000):
+            found.update((x.key, x) for x in instrument_io.load(s, INST.c.key.in_(keys[start:start + 2000])))
+        missing = [k for k in keys if k not in found]
+        if missing:
+            raise NotFound(f"no instrument with key {_listing(missing)}")
+        return [found[k] for k in keys]
+
+    @staticmethod
+    def _heads_by_keys(s: Session, table, keys: list[str]) -> dict[str, Any]:
+        """key -> (id, key, row_version, updated_by, updated_at) of the stored records among `keys`."""
+        out: dict[str, Any] = {}
+        for start in range(0, len(keys), 2000):
+            q = select(table.c.id, table.c.key, table.c.row_version, table.c.updated_by, table.c.updated_at).where(
+                table.c.key.in_(keys[start:start + 2000])
+            )
+            out.update((r.key, r) for r in s.execute(q))
+        return out
+
+    def _head(self, s: Session, table, key: str) -> Any:
+        """(id, key, row_version, updated_by, updated_at) of one stored record, locked for this
+        transaction (SQLite: the whole database already is, by BEGIN IMMEDIATE)."""
+        q = select(table.c.id, table.c.key, table.c.row_version, table.c.updated_by, table.c.updated_at).where(
+            table.c.key == key
+        )
+        if s.bind.dialect.name == "postgresql":
+            q = q.with_for_update()
+        return s.execute(q).one_or_none()
 
     def _rows_by_keys(self, s: Session, query, model, keys: list[str], what: str) -> list:
         if not keys:
