@@ -128,3 +128,20 @@ def test_practicality_time_and_cost():
     assert nocost.value == pytest.approx(0.5) and [x.code for x in w] == ["cost_unknown"]
     none, w2 = comp.practicality_component(job(time_budget_minutes=None, budget_per_applicant=None), instrument())
     assert none.value is None and [x.code for x in w2] == ["no_budgets"]
+
+
+@pytest.mark.parametrize("occupation, expected", [
+    ("clerks", "match"),  # plural ignored
+    ("records staff", "match"),  # 'staff' is not a significant word
+    ("records officers", "related"),
+    ("welders", "other"),
+    (None, "general"),
+])
+def test_occupation_match_against_job_title(occupation, expected):
+    n = NormGroup("g", "group", 500, 2024, "national", 50, 10, occupation=occupation)
+    assert comp.occupation_match(n, job(title="Records clerk"), Policy()) == expected
+
+
+def test_occupation_match_via_relevant_job_family():
+    n = NormGroup("g", "group", 500, 2024, "national", 50, 10, occupation="Bookkeepers")
+    assert comp.occupation_match(n, job(), Policy(relevant_job_families=["bookkeeper"])) == "match"

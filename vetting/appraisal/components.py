@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import re
 
 from vetting.appraisal.types import AppraisalWarning, Component, ReliabilityUsed, StudyUse, ValidityDetail
 from vetting.records.domain import Instrument, Job, NormGroup, Policy
@@ -37,7 +38,7 @@ SCOPE_CREDIT = {"local": 1.0, "regional": 0.8, "national": 0.6, "international":
 #: because the precision of a norm's mean and percentiles grows with the square root of n.
 NORM_FULL_SIZE = 1000
 #: Norms: occupation credit.
-OCCUPATION_CREDIT = {"match": 1.0, "general": 0.5, "other": 0.25}
+OCCUPATION_CREDIT = {"match": 1.0, "related": 0.5, "general": 0.5, "other": 0.25}
 #: Practicality: a part (time or cost) scores 1 - 0.5 x (used / budget) within budget, 0 over.
 PRACTICALITY_SLOPE = 0.5
 #: Validity: a study with fewer people than this is "small" (its r has an SE of about .1 or more
@@ -195,8 +196,8 @@ def reliability_component(used: ReliabilityUsed) -> tuple[Component, list[Apprai
 NORMS_MAPPING = (
     "each norm group: 0 when older than the policy allows; otherwise the mean of four credits - "
     "age 1 - age/max age; scope local 1, regional .8, national .6, international .4; "
-    f"size min(1, sqrt(n/{NORM_FULL_SIZE})); occupation matching the job 1, none stated .5, "
-    "other .25. The component is the best group's value."
+    f"size min(1, sqrt(n/{NORM_FULL_SIZE})); occupation matching the job 1, related (some words "
+    "in common) or none stated .5, other .25. The component is the best group's value."
 )
 
 
@@ -204,15 +205,34 @@ def norm_age(norm: NormGroup, as_of: dt.date) -> int:
     return max(0, as_of.year - norm.year)
 
 
+_OCCUPATION_STOPWORDS = frozenset({
+    "a", "an", "and", "or", "of", "the", "for", "in", "at", "all", "general", "mixed", "other",
+    "staff", "role", "job", "worker", "employee", "applicant", "incumbent", "people", "personnel",
+})
+
+
+def _occupation_tokens(text: str) -> set[str]:
+    """Significant words, lower case, with a plural -s dropped ('operators' -> 'operator')."""
+    words = re.findall(r"[a-z]+", text.lower())
+    tokens = {w[:-1] if len(w) > 3 and w.endswith("s") and not w.endswith("ss") else w for w in words}
+    return tokens - _OCCUPATION_STOPWORDS
+
+
 def occupation_match(norm: NormGroup, job: Job, policy: Policy) -> str:
-    """'match', 'general' (no occupation stated) or 'other'."""
-    occ = (norm.occupation or "").strip().lower()
+    """'match', 'related', 'general' (no occupation stated) or 'other'.
+
+    'match': every significant word of the norm's occupation appears in the job title or in one
+    of the job families marked relevant (plural -s ignored: 'control-room operators' matches
+    'Water treatment control-room operator'); 'related': some do; 'other': none do.
+    """
+    occ = _occupation_tokens(norm.occupation or "")
     if not occ:
         return "general"
-    families = {f.strip().lower() for f in policy.relevant_job_families}
-    title = job.title.strip().lower()
-    if occ in families or occ in title or (title and title in occ):
+    targets = [_occupation_tokens(job.title)] + [_occupation_tokens(f) for f in policy.relevant_job_families]
+    if any(t and occ <= t for t in targets):
         return "match"
+    if any(occ & t for t in targets):
+        return "related"
     return "other"
 
 
