@@ -41,7 +41,7 @@ def main() -> None:
 
     taylor_russell(r[:10], base[:10], sr[:10])  # warm-up
     t_vec = best_of(lambda: taylor_russell(r, base, sr), 5)
-    t_loop = best_of(lambda: [taylor_russell(float(a), float(b), float(c)) for a, b, c in zip(r, base, sr)], 1)
+    t_loop = best_of(lambda: [taylor_russell(float(a), float(b), float(c)) for a, b, c in zip(r, base, sr)], 3)
     t_scores = best_of(lambda: standard_scores(raw, 100.0, 15.0), 5)
 
     from scipy.stats import multivariate_normal, norm

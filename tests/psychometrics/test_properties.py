@@ -103,3 +103,11 @@ def test_expected_impact_ratio_rises_as_the_cut_falls(d, p1, p2):
     assume(abs(p1 - p2) > 1e-4)
     lo, hi = min(p1, p2), max(p1, p2)
     assert expected_impact(d, lo)[1] <= expected_impact(d, hi)[1] + 1e-12
+
+
+@given(st.floats(-1, 1), st.floats(1e-6, 1 - 1e-6), st.floats(1e-6, 1.0))
+@settings(max_examples=150)
+def test_scalar_and_vectorised_taylor_russell_agree(r, base, sr):
+    # The scalar fast path and the array path implement the same formula (Owen, 1956).
+    vec = taylor_russell(np.array([r]), np.array([base]), np.array([sr]))[0]
+    assert taylor_russell(r, base, sr) == pytest.approx(vec, abs=1e-12)

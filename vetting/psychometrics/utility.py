@@ -14,11 +14,12 @@ applicant population.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy.special import owens_t
+from scipy.special import ndtr, ndtri, owens_t
 from vetting.psychometrics import _normal as norm
 
 from vetting.psychometrics import _checks as ck
@@ -81,6 +82,50 @@ def bvn_cdf(h: Any, k: Any, rho: Any) -> np.ndarray:
     return np.clip(result, 0.0, 1.0)
 
 
+def _bvn_scalar(h: float, k: float, rho: float) -> float:
+    """bvn_cdf for one point with finite h, k and |rho| < 1 (same formula, no array overhead)."""
+    s = math.sqrt(1.0 - rho * rho)
+    if h == 0.0 and k == 0.0:
+        val = 0.25 + math.asin(rho) / (2.0 * math.pi)
+    elif h == 0.0:
+        val = 0.5 * float(ndtr(k)) - float(owens_t(k, -rho / s))
+    elif k == 0.0:
+        val = 0.5 * float(ndtr(h)) - float(owens_t(h, -rho / s))
+    else:
+        beta = 0.5 if h * k < 0.0 else 0.0
+        val = (
+            0.5 * float(ndtr(h))
+            + 0.5 * float(ndtr(k))
+            - float(owens_t(h, (k - rho * h) / (h * s)))
+            - float(owens_t(k, (h - rho * k) / (k * s)))
+            - beta
+        )
+    return min(1.0, max(0.0, val))
+
+
+def _check_scalar(value: Any, name: str, lo: float, hi: float, lo_open: bool, hi_open: bool) -> float:
+    """Fast path for one plain number; falls back to the full check for the error message."""
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        v = float(value)
+        if (v > lo if lo_open else v >= lo) and (v < hi if hi_open else v <= hi):
+            return v
+    return float(ck.in_range(value, name, lo, hi, lo_open=lo_open, hi_open=hi_open))
+
+
+def _taylor_russell_scalar(r: Any, base_rate: Any, sr: Any) -> float:
+    rr = _check_scalar(r, "validity", -1.0, 1.0, False, False)
+    b = _check_scalar(base_rate, "base_rate", 0.0, 1.0, True, True)
+    s = _check_scalar(sr, "selection_ratio", 0.0, 1.0, True, False)
+    if rr == 0.0 or s == 1.0:
+        return b
+    h, k = float(ndtri(s)), float(ndtri(b))
+    if abs(rr) == 1.0:
+        joint = min(s, b) if rr > 0 else max(0.0, s + b - 1.0)
+    else:
+        joint = _bvn_scalar(h, k, rr)
+    return min(1.0, max(0.0, joint / s))
+
+
 def taylor_russell(r: Any, base_rate: Any, sr: Any) -> Any:
     """Expected proportion successful among those selected (Taylor & Russell, 1939).
 
@@ -89,6 +134,8 @@ def taylor_russell(r: Any, base_rate: Any, sr: Any) -> Any:
     Vectorised over all three arguments (numpy broadcasting).
     """
     scalar = ck.is_scalar(r, base_rate, sr)
+    if scalar:
+        return _taylor_russell_scalar(r, base_rate, sr)
     rr = ck.correlation(r, "validity")
     b = ck.probability(base_rate, "base_rate")
     s = ck.in_range(sr, "selection_ratio", 0.0, 1.0, lo_open=True)
