@@ -107,3 +107,8 @@ def test_sweep_matches_single_plans():
         assert s.impact_ratio[i] == pytest.approx(p.impact_ratio)
         assert s.utility_per_year[i] == pytest.approx(p.utility_per_year)
     assert np.all(np.diff(s.impact_ratio) > 0)  # less selective cuts -> less adverse impact
+
+
+def test_plan_warns_when_the_instrument_fails_a_gate():
+    p = plan(job(), instrument(minutes=120), as_of=AS_OF)
+    assert p.warnings[0].code == "not_eligible" and "time" in p.warnings[0].text

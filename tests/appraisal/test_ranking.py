@@ -150,3 +150,31 @@ def test_draw_pruning_keeps_every_possible_winner():
     assert p[2] == 0 and p[3] == 0 and p[0] > 0 and p[1] > 0 and p.sum() == pytest.approx(1.0)
     # with validity uncertainty wide enough to overlap, row 2 becomes a possible winner again
     assert 2 in _contenders(C, positive, r0, np.full(4, 0.05))
+
+
+def test_lock_timing_with_mixed_naive_and_aware_times():
+    aware_lock = dt.datetime(2026, 1, 1, 9, 0, tzinfo=dt.timezone.utc)
+    j = job(policy=Policy(version=1, locked_at=aware_lock))
+    r = rank(j, [instrument()], as_of=AS_OF, draws=5, first_ranked_at=dt.datetime(2026, 1, 1, 10, 0))
+    assert r.locked_before_first_ranking
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+from hypothesis.extra.numpy import arrays  # noqa: E402
+
+
+@settings(max_examples=60, deadline=None)
+@given(arrays(np.float64, st.tuples(st.integers(2, 12), st.just(6)), elements=st.floats(0, 1)),
+       st.floats(0, 0.1))
+def test_pruning_never_drops_the_policy_weight_winner_and_p_best_sums_to_one(C, se_value):
+    from vetting.appraisal.ranking import _contenders, p_best_draws
+
+    w = np.array([0.3, 0.3, 0.15, 0.1, 0.1, 0.05])
+    r0 = C[:, 1] * 0.5
+    se = np.full(C.shape[0], se_value)
+    live = set(_contenders(C, w > 0, r0, se).tolist())
+    assert int(np.argmax(C @ w)) in live
+    p = p_best_draws(C, w, r0, se, draws=200, seed=0)
+    assert p.sum() == pytest.approx(1.0)
+    assert all(p[i] == 0 for i in range(C.shape[0]) if i not in live)

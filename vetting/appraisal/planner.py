@@ -29,7 +29,7 @@ import numpy as np
 
 from vetting.appraisal import components as comp
 from vetting.appraisal.errors import AppraisalError
-from vetting.appraisal.gates import choose_reliability
+from vetting.appraisal.gates import choose_reliability, evaluate_gates
 from vetting.appraisal.types import AppraisalWarning, CutPlan, CutScores, LocalValidationPlan, PlanSweep
 from vetting.psychometrics import error as pe
 from vetting.psychometrics import impact as pi
@@ -133,6 +133,12 @@ def plan(
             ))
 
     rel = choose_reliability(instrument)
+    failed = [g for g in evaluate_gates(job, instrument, job.policy, rel).values() if not g.passed]
+    if failed:
+        warnings.insert(0, AppraisalWarning(
+            "not_eligible",
+            "this instrument fails gate(s) for this job: " + "; ".join(f"{g.name}: {g.reason}" for g in failed),
+        ))
     sem_raw = band = None
     if norm is not None and rel.value is not None:
         sem_raw = float(pe.sem(norm.sd, rel.value))

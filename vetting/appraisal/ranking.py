@@ -58,6 +58,11 @@ ROBUSTNESS_METHOD = (
 )
 
 
+def _utc(when: dt.datetime) -> dt.datetime:
+    """Aware UTC time; a naive time is taken to be UTC already (the store keeps UTC)."""
+    return when.replace(tzinfo=dt.timezone.utc) if when.tzinfo is None else when.astimezone(dt.timezone.utc)
+
+
 def check_job(job: Job) -> None:
     """Raise JobError / PolicyError when the job cannot be ranked."""
     if not job.requirements:
@@ -308,7 +313,7 @@ def rank(
     )
     all_results = eligible + ineligible
     first = first_ranked_at if first_ranked_at is not None else job.first_ranked_at
-    locked_before = bool(policy.locked_at is not None and (first is None or policy.locked_at <= first))
+    locked_before = bool(policy.locked_at is not None and (first is None or _utc(policy.locked_at) <= _utc(first)))
     ranking_warnings = []
     if not policy.locked:
         ranking_warnings.append(AppraisalWarning("policy_not_locked", "the scoring policy was not locked before this ranking"))
