@@ -52,6 +52,7 @@ def test_two_near_identical_instruments_split_the_draws():
     r = rank(job(), [a, b], as_of=AS_OF, draws=8000, seed=11)
     p = r.robustness.p_best
     assert p["twin-a"] == pytest.approx(0.5, abs=0.04) and p["twin-b"] == pytest.approx(0.5, abs=0.04)
+    assert r.robustness.tied_with_top == ["twin-b"] and r.robustness.smallest_flip is None
 
 
 def test_robustness_is_deterministic_for_a_seed():

@@ -310,6 +310,7 @@ def rank(
         smallest_flip=smallest,
         flips=flips,
         method=ROBUSTNESS_METHOD.format(draws=draws, seed=seed),
+        tied_with_top=[r.instrument for r in eligible[1:] if abs(r.score - eligible[0].score) < 1e-9],
     )
     all_results = eligible + ineligible
     first = first_ranked_at if first_ranked_at is not None else job.first_ranked_at

@@ -194,6 +194,9 @@ class Robustness:
     smallest_flip: WeightFlip | None
     flips: dict[str, WeightFlip | None] = field(default_factory=dict)
     method: str = ""
+    #: eligible instruments whose score equals the top choice's (the order between them is
+    #: then only the tie-break: higher conservative validity, then key)
+    tied_with_top: list[str] = field(default_factory=list)
 
 
 @dataclass

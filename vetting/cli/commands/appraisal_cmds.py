@@ -146,6 +146,7 @@ def ranking_json(r) -> dict[str, Any]:
             "seed": r.robustness.seed,
             "concentration": r.robustness.concentration,
             "smallest_flip": to_jsonable(r.robustness.smallest_flip),
+            "tied_with_top": list(r.robustness.tied_with_top),
             "method": r.robustness.method,
         },
         "alternatives": to_jsonable(r.alternatives),
@@ -186,6 +187,8 @@ def print_ranking(r) -> None:
     else:
         print(f"Top choice: {top.instrument} (ranked first in {top.p_best:.0%} of {rob.draws} robustness draws, seed {rob.seed})")
         f = rob.smallest_flip
+        if rob.tied_with_top:
+            print(f"Its score is tied with: {', '.join(rob.tied_with_top)} (the order between them is only the tie-break)")
         if f is not None:
             print(f"Smallest single weight change that changes it: {f.weight} {f.from_value:g} -> {f.to_value:.3g} "
                   f"(then {f.new_top} ties or leads)")
