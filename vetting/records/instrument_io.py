@@ -10,7 +10,10 @@ Used only by vetting.records.store, inside its transactions.
 from __future__ import annotations
 
 import datetime as dt
+import functools
+import gc
 from collections import defaultdict
+from collections.abc import Callable
 from typing import Any
 
 from sqlalchemy import delete, insert, select, update
@@ -44,17 +47,36 @@ CHK = m.SampleCheckRow.__table__
 _CHUNK = 2000
 
 
+def _gc_paused(fn: Callable) -> Callable:
+    """Pause the cyclic garbage collector while building many small objects: the objects built
+    here hold no cycles, and repeated full collections over a growing heap otherwise more than
+    double the time of a large load."""
+
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        was_enabled = gc.isenabled()
+        gc.disable()
+        try:
+            return fn(*args, **kwargs)
+        finally:
+            if was_enabled:
+                gc.enable()
+
+    return wrapper
+
+
 def _grouped(s: Session, table, ids_query, fields: list[str]) -> dict[int, list[tuple]]:
     cols = [table.c.instrument_id, *(table.c[f] for f in fields)]
     q = select(*cols).order_by(table.c.instrument_id, table.c.position)
     if ids_query is not None:
         q = q.where(table.c.instrument_id.in_(ids_query))
     out: dict[int, list[tuple]] = defaultdict(list)
-    for row in s.execute(q):
+    for row in s.execute(q).all():
         out[row[0]].append(tuple(row[1:]))
     return out
 
 
+@_gc_paused
 def load(s: Session, condition=None) -> list[Instrument]:
     """Instruments matching `condition` (a WHERE clause on the instrument table; None = all),
     in the order they were stored, with all their evidence. Eleven queries in all."""
@@ -88,7 +110,7 @@ def load(s: Session, condition=None) -> list[Instrument]:
     )
     if ids_query is not None:
         pq = pq.where(NORM.c.instrument_id.in_(ids_query))
-    for gid, pct, raw in s.execute(pq):
+    for gid, pct, raw in s.execute(pq).all():
         points[gid].append(PercentilePoint(percentile=pct, raw=raw))
 
     sq = select(SC.c.instrument_id, SC.c.id, SC.c.requested, SC.c.received, SC.c.checked_by)
@@ -101,10 +123,10 @@ def load(s: Session, condition=None) -> list[Instrument]:
         sq = sq.where(SC.c.instrument_id.in_(ids_query))
         cq = cq.where(SC.c.instrument_id.in_(ids_query))
     checks: dict[int, list[SampleCheck]] = defaultdict(list)
-    for cid, item, result, note in s.execute(cq):
+    for cid, item, result, note in s.execute(cq).all():
         checks[cid].append(SampleCheck(item=item, result=result, note=note))
     samples: dict[int, SampleCopy] = {}
-    for iid, cid, requested, received, checked_by in s.execute(sq):
+    for iid, cid, requested, received, checked_by in s.execute(sq).all():
         samples[iid] = SampleCopy(requested=requested, received=received, checked_by=checked_by,
                                   checks=checks.get(cid, []))
 
@@ -197,6 +219,7 @@ def insert_new(s: Session, insts: list[Instrument], *, who: str, now: dt.datetim
     return ids
 
 
+@_gc_paused
 def insert_evidence(s: Session, pairs: list[tuple[int, Instrument]]) -> None:
     """Insert the evidence rows of each (instrument id, instrument)."""
     meas, rels, vals, subs, revs, norm_params, norm_tables, sc_params, sc_checks = ([] for _ in range(9))
