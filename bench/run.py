@@ -1,0 +1,502 @@
+"""The benchmark suite: how vetting's main operations grow with the size of the catalogue.
+
+    .venv/bin/python bench/run.py                         # 100, 1,000 and 10,000 instruments
+    .venv/bin/python bench/run.py --sizes 100,1000        # quicker
+    .venv/bin/python bench/run.py --pg postgresql+psycopg://postgres@127.0.0.1:PORT/postgres
+    .venv/bin/python bench/run.py --only import,rank --json bench/results.json
+
+Not part of the test run (bench/ is outside tests/). Every measurement runs in a process of its
+own, so its peak memory (the process's maximum resident set, getrusage ru_maxrss) belongs to
+that one operation, with the interpreter and the libraries it imports included. Timings are
+wall-clock seconds (time.perf_counter); operations that take well under a second are repeated
+and the median is reported. The catalogue is made by vetting.records.synthetic (seeded), so
+every run measures the same records.
+
+Measured at each size (see docs/performance.md for the goals and the latest figures):
+  import       parse the catalogue file and import it into a fresh database (one transaction)
+  open         Store.open on the populated database (migration check included)
+  export       export every record and write the catalogue file
+  list         store.instruments(): every instrument with all its evidence
+  summarise    the catalogue table's figures for every instrument (appraisal.summarise)
+  filter       one keystroke of the catalogue filter over every row (the interface's filter)
+  rank         a stored job ranked with 10,000 robustness draws (records loaded from the database)
+  rank-memory  the same ranking on instruments already in memory, and the bare-numpy baseline
+  sweep        the cut-score sweep (99 selection ratios) for the top instrument
+  memo-md/-html/-docx   a memo for the job in each format (the memo command's own path)
+  tui-first    the interface's first screen until the catalogue table is filled
+  tui-keys     interactive actions in the interface: a filter keystroke, moving the cursor
+  cli-list     `vetting list instruments` as a person runs it (a new process)
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import hashlib
+import json
+import math
+import os
+import platform
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+REPO = HERE.parent
+AS_OF = dt.date(2026, 11, 1)
+SEED = 1
+DRAWS = 10_000
+DEFAULT_SIZES = (100, 1000, 10_000)
+ALL = (
+    "import", "open", "export", "list", "summarise", "filter", "rank", "rank-memory", "sweep",
+    "memo-md", "memo-html", "memo-docx", "tui-first", "tui-keys", "cli-list",
+)
+#: operations that run on PostgreSQL too when --pg is given
+STORE_OPS = ("import", "open", "export", "list", "rank")
+
+
+# ---------------------------------------------------------------------------------------------
+# worker side: one operation, in a process of its own
+# ---------------------------------------------------------------------------------------------
+
+
+def _rss_mb() -> float:
+    with open("/proc/self/statm") as fh:
+        return int(fh.read().split()[1]) * os.sysconf("SC_PAGE_SIZE") / 2**20
+
+
+def _peak_mb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # Linux: kilobytes
+
+
+def _repeat(fn, *, at_least: float = 1.0, most: int = 7) -> tuple[float, list[float], object]:
+    """Run fn until about `at_least` seconds or `most` runs have passed; median and all times."""
+    times, result = [], None
+    start = time.perf_counter()
+    while len(times) < most and (not times or time.perf_counter() - start < at_least):
+        t0 = time.perf_counter()
+        result = fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times), times, result
+
+
+def _job_key(store) -> str:
+    return sorted(store.job_keys())[0]
+
+
+def _ranking_digest(ranking) -> str:
+    rows = [
+        (r.instrument, r.eligible, r.rank, round(r.score, 9) if r.score is not None else None,
+         round(r.p_best, 9) if r.p_best is not None else None)
+        for r in ranking.results
+    ]
+    return hashlib.sha256(json.dumps(rows).encode()).hexdigest()[:16]
+
+
+def worker(op: str, size: int, url: str, workdir: Path) -> dict:
+    from vetting.records.store import Store
+
+    extra: dict = {}
+    before = _rss_mb()
+    catfile = workdir / f"catalogue-{size}.yaml"
+
+    if op == "import":
+        from vetting.records.catalogue import load_catalogue
+
+        t0 = time.perf_counter()
+        cat = load_catalogue(catfile)
+        t1 = time.perf_counter()
+        with Store.open(url, user="bench") as store:
+            t2 = time.perf_counter()
+            counts = store.import_catalogue(cat, source=str(catfile))
+        t3 = time.perf_counter()
+        seconds = t3 - t0
+        extra = {"parse_s": round(t1 - t0, 3), "open_s": round(t2 - t1, 3), "store_s": round(t3 - t2, 3),
+                 "counts": counts, "file_mb": round(catfile.stat().st_size / 2**20, 1)}
+        runs = [seconds]
+    elif op == "open":
+        def once():
+            Store.open(url, user="bench").close()
+        seconds, runs, _ = _repeat(once)
+    elif op == "export":
+        from vetting.records.catalogue import write_catalogue
+
+        with Store.open(url, user="bench") as store:
+            out = workdir / f"export-{size}-{os.getpid()}.yaml"
+
+            def once():
+                out.unlink(missing_ok=True)
+                write_catalogue(store.export_catalogue(), out)
+            seconds, runs, _ = _repeat(once)
+            extra = {"file_mb": round(out.stat().st_size / 2**20, 1)}
+            out.unlink(missing_ok=True)
+    elif op == "list":
+        with Store.open(url, user="bench") as store:
+            seconds, runs, got = _repeat(store.instruments)
+            extra = {"instruments": len(got)}
+    elif op == "summarise":
+        from vetting.appraisal.summary import summarise_all
+
+        with Store.open(url, user="bench") as store:
+            instruments = store.instruments()
+        before = _rss_mb()
+        seconds, runs, got = _repeat(lambda: summarise_all(instruments, AS_OF))
+    elif op == "filter":
+        from vetting.tui.data import Data
+        from vetting.tui.screens.catalogue import filter_rows
+
+        data = Data(url, today=AS_OF)
+        rows = data.catalogue_rows()
+        data.close()
+        before = _rss_mb()
+        # a person typing "mech rea": each keystroke filters every row again
+        typed = "mech rea"
+        prefixes = [typed[: i + 1] for i in range(len(typed))]
+        per_key = []
+        for text in prefixes:
+            t, _, _ = _repeat(lambda text=text: filter_rows(rows, text), at_least=0.2)
+            per_key.append(t)
+        seconds, runs = max(per_key), per_key
+        extra = {"rows": len(rows), "worst_keystroke_ms": round(1000 * max(per_key), 2)}
+    elif op == "rank":
+        from vetting.appraisal.service import rank_job
+
+        with Store.open(url, user="bench") as store:
+            key = _job_key(store)
+            seconds, runs, ranking = _repeat(
+                lambda: rank_job(store, key, draws=DRAWS, seed=0, as_of=AS_OF, mark=False), at_least=0.5, most=3)
+            extra = {"job": key, "eligible": len(ranking.eligible), "digest": _ranking_digest(ranking)}
+    elif op == "rank-memory":
+        seconds, runs, extra = _rank_memory(url)
+    elif op == "sweep":
+        import numpy as np
+
+        from vetting.appraisal.planner import sweep
+        from vetting.appraisal.ranking import rank
+
+        with Store.open(url, user="bench") as store:
+            job = store.job(_job_key(store))
+            instruments = store.instruments()
+        ranking = rank(job, instruments, draws=1, seed=0, as_of=AS_OF)
+        top = next(i for i in instruments if i.key == (ranking.top or ranking.results[0]).instrument)
+        ratios = np.linspace(0.01, 0.99, 99)
+        before = _rss_mb()
+        seconds, runs, _ = _repeat(lambda: sweep(job, top, ratios, as_of=AS_OF))
+        extra = {"instrument": top.key, "ratios": len(ratios)}
+    elif op.startswith("memo-"):
+        from vetting.memo.api import make_memo
+
+        fmt = op.split("-", 1)[1]
+        with Store.open(url, user="bench") as store:
+            key = _job_key(store)
+            n = [0]
+
+            def once():
+                n[0] += 1
+                out = workdir / f"memo-{size}-{os.getpid()}-{n[0]}.{fmt}"
+                make_memo(store, key, fmt=fmt, out=out, as_of=AS_OF, now=dt.datetime(2026, 11, 1, 12, 0, tzinfo=dt.UTC))
+                return out
+            seconds, runs, out = _repeat(once, most=3)
+            extra = {"kb": round(out.stat().st_size / 1024, 1)}
+    elif op == "tui-first":
+        seconds, runs, extra = _tui(url, size, keys=False)
+    elif op == "tui-keys":
+        seconds, runs, extra = _tui(url, size, keys=True)
+    elif op == "cli-list":
+        def once():
+            subprocess.run([sys.executable, "-m", "vetting", "--db", url, "list", "instruments"],
+                           stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, check=True, cwd=REPO)
+        seconds, runs, _ = _repeat(once, most=3)
+    else:
+        raise SystemExit(f"unknown operation {op!r}")
+    return {"op": op, "size": size, "seconds": seconds, "runs": [round(r, 4) for r in runs],
+            "peak_mb": round(_peak_mb(), 1), "rss_before_mb": round(before, 1), **extra}
+
+
+def _rank_memory(url: str):
+    """rank() on instruments in memory, beside the bare-numpy baseline of the same arithmetic
+    (bench/bench_appraisal.py's `baseline`, written by the appraisal engine's author)."""
+    import importlib.util
+
+    import numpy as np
+
+    from vetting.appraisal.ranking import rank
+    from vetting.records.store import Store
+
+    with Store.open(url, user="bench") as store:
+        job = store.job(_job_key(store))
+        instruments = store.instruments()
+    seconds, runs, ranking = _repeat(lambda: rank(job, instruments, draws=DRAWS, seed=0, as_of=AS_OF),
+                                     at_least=0.5, most=5)
+    extra = {"eligible": len(ranking.eligible)}
+    spec = importlib.util.spec_from_file_location("bench_appraisal", HERE / "bench_appraisal.py")
+    if spec and spec.loader and (HERE / "bench_appraisal.py").exists():
+        ba = importlib.util.module_from_spec(spec)
+        spec.loader.exec_module(ba)
+        names = ("coverage", "validity", "reliability", "norms", "fairness", "practicality")
+        elig = ranking.eligible
+        if elig:
+            C = np.array([[a.components[n].value or 0.0 for n in names] for a in elig])
+            vr = np.array([a.validity.conservative or 0.0 for a in elig])
+            vse = np.array([a.validity.se_mean_r or 0.0 for a in elig])
+            w = np.array(list(ranking.weights.values()))
+            raw = {
+                "covered": C[:, 0] * 10.0, "total": np.full(len(elig), 10.0), "validity": vr,
+                "reliability": 0.70 + 0.25 * C[:, 2], "norms": C[:, 3], "impact": C[:, 4],
+                "minutes_ratio": np.full(len(elig), 0.4), "cost_ratio": np.full(len(elig), 0.4),
+            }
+            b, _, _ = _repeat(lambda: ba.baseline(ba.baseline_components(raw, w), vr, vse, w, DRAWS, 0),
+                              at_least=0.5, most=5)
+            extra.update({"numpy_baseline_s": round(b, 4), "ratio_to_numpy": round(seconds / b, 2)})
+    return seconds, runs, extra
+
+
+def _tui(url: str, size: int, *, keys: bool):
+    """Time the interface headless (App.run_test): from start until the catalogue table shows
+    every instrument; with keys=True, also the latency of interactive actions."""
+    import asyncio
+
+    from vetting.tui.app import make_app
+
+    async def wait_until(pilot, cond, timeout=300.0):
+        deadline = time.perf_counter() + timeout
+        while not cond():
+            if time.perf_counter() > deadline:
+                raise TimeoutError("the interface never got there")
+            await pilot.pause(0.002)
+
+    async def main():
+        out: dict = {}
+        app = make_app(url, today=AS_OF, cursor_blink=False)
+        t0 = time.perf_counter()
+        async with app.run_test(size=(160, 48)) as pilot:
+            await wait_until(pilot, lambda: type(app.screen).__name__ == "CatalogueScreen")
+            out["screen_shown_s"] = time.perf_counter() - t0
+            screen = app.screen
+            def filled() -> bool:
+                status = screen.query_one("#status")
+                text = str(getattr(status, "content", "") or getattr(status, "renderable", ""))
+                if "Could not read" in text:
+                    raise RuntimeError(f"the interface could not load the catalogue: {text}")
+                return getattr(screen, "loaded", False) and screen.query_one("DataTable").row_count == len(screen.rows)
+
+            await wait_until(pilot, filled)
+            out["table_filled_s"] = time.perf_counter() - t0
+            out["rows"] = len(screen.rows)
+            if keys and screen.rows:
+                table = screen.query_one("DataTable")
+                # filter keystrokes ("zep"): each until the table shows the filtered rows,
+                # the interface's debounce delay included
+                keystrokes = []
+                for ch in "zep":
+                    shown_before = screen.shown
+                    t = time.perf_counter()
+                    await pilot.press(ch)
+                    await wait_until(pilot, lambda: screen.shown is not shown_before and screen._filter_timer is None)
+                    keystrokes.append(time.perf_counter() - t)
+                out["filter_key_ms"] = 1000 * max(keystrokes)
+                out["filtered_rows"] = len(screen.shown)
+                out["debounce_ms"] = 1000 * screen.DEBOUNCE_SECONDS
+                shown_before = screen.shown
+                await pilot.press("escape")
+                await wait_until(pilot, lambda: screen.shown is not shown_before and screen._filter_timer is None)
+                table.focus()
+                await pilot.pause()
+                moves = []
+                for _ in range(10):
+                    before_row = table.cursor_row
+                    t = time.perf_counter()
+                    await pilot.press("down")
+                    await wait_until(pilot, lambda: table.cursor_row != before_row)
+                    moves.append(time.perf_counter() - t)
+                out["cursor_move_ms"] = 1000 * statistics.median(moves)
+                t = time.perf_counter()
+                await pilot.press("enter")
+                await wait_until(pilot, lambda: type(app.screen).__name__ != "CatalogueScreen", timeout=30)
+                out["open_editor_ms"] = 1000 * (time.perf_counter() - t)
+        out["total_s"] = time.perf_counter() - t0
+        return out
+
+    out = asyncio.run(main())
+    seconds = out["table_filled_s"] if not keys else max(
+        out.get("filter_key_ms", 0), out.get("cursor_move_ms", 0), out.get("open_editor_ms", 0)) / 1000
+    return seconds, [seconds], {k: round(v, 3) if isinstance(v, float) else v for k, v in out.items()}
+
+
+# ---------------------------------------------------------------------------------------------
+# parent side
+# ---------------------------------------------------------------------------------------------
+
+
+def _run_worker(op: str, size: int, url: str, workdir: Path, timeout: float) -> dict:
+    cmd = [sys.executable, str(Path(__file__).resolve()), "--worker", op, "--size", str(size),
+           "--url", url, "--workdir", str(workdir)]
+    t0 = time.perf_counter()
+    done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, cwd=REPO)
+    wall = time.perf_counter() - t0
+    if done.returncode != 0:
+        tail = (done.stderr or done.stdout).strip().splitlines()[-3:]
+        return {"op": op, "size": size, "error": " | ".join(tail), "process_s": round(wall, 2)}
+    result = json.loads(done.stdout.strip().splitlines()[-1])
+    result["process_s"] = round(wall, 2)
+    return result
+
+
+def _pg_database(base: str, name: str) -> str:
+    import psycopg
+    from sqlalchemy.engine import make_url
+
+    plain = base.replace("postgresql+psycopg://", "postgresql://", 1)
+    with psycopg.connect(plain, autocommit=True) as conn:
+        conn.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+        conn.execute(f'CREATE DATABASE "{name}"')
+    return make_url(base).set(database=name).render_as_string(hide_password=False)
+
+
+def _fit_exponent(points: list[tuple[int, float]]) -> float | None:
+    """b in time ~ a * n^b, least squares on log-log (None with fewer than 2 sizes)."""
+    pts = [(n, t) for n, t in points if n > 0 and t and t > 0]
+    if len(pts) < 2:
+        return None
+    xs = [math.log(n) for n, _ in pts]
+    ys = [math.log(t) for _, t in pts]
+    mx, my = statistics.fmean(xs), statistics.fmean(ys)
+    sxx = sum((x - mx) ** 2 for x in xs)
+    return sum((x - mx) * (y - my) for x, y in zip(xs, ys)) / sxx if sxx else None
+
+
+def machine() -> str:
+    cpu = "unknown CPU"
+    try:
+        for line in open("/proc/cpuinfo"):
+            if line.startswith("model name"):
+                cpu = line.split(":", 1)[1].strip()
+                break
+    except OSError:
+        pass
+    mem = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES") / 2**30
+    load = open("/proc/loadavg").read().split()[:3] if Path("/proc/loadavg").exists() else []
+    return (f"{cpu}, {os.cpu_count()} cores, {mem:.0f} GiB RAM, {platform.system()} {platform.release()}, "
+            f"Python {platform.python_version()}, load average at start {' '.join(load)}")
+
+
+def _fmt_s(t: float | None) -> str:
+    if t is None:
+        return "—"
+    return f"{t * 1000:.1f} ms" if t < 1 else f"{t:.2f} s"
+
+
+def markdown(results: list[dict], sizes: list[int]) -> str:
+    backends = sorted({r.get("backend", "sqlite") for r in results}, key=lambda b: b != "sqlite")
+    lines = []
+    for backend in backends:
+        rows = [r for r in results if r.get("backend", "sqlite") == backend]
+        ops = [op for op in ALL if any(r["op"] == op for r in rows)]
+        lines.append(f"**{backend}** — time (peak memory of the process)\n")
+        lines.append("| operation | " + " | ".join(f"{n:,}" for n in sizes) + " | growth exponent |")
+        lines.append("|---|" + "---|" * len(sizes) + "---|")
+        for op in ops:
+            cells, pts = [], []
+            for n in sizes:
+                r = next((x for x in rows if x["op"] == op and x["size"] == n), None)
+                if r is None:
+                    cells.append("—")
+                elif "error" in r:
+                    cells.append("failed")
+                else:
+                    cells.append(f"{_fmt_s(r['seconds'])} ({r['peak_mb']:.0f} MB)")
+                    pts.append((n, r["seconds"]))
+            b = _fit_exponent(pts)
+            lines.append(f"| {op} | " + " | ".join(cells) + f" | {'—' if b is None else f'{b:.2f}'} |")
+        lines.append("")
+    return "\n".join(lines)
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description="vetting benchmark suite (see the module docstring)")
+    ap.add_argument("--sizes", default=",".join(map(str, DEFAULT_SIZES)), help="instrument counts, comma-separated")
+    ap.add_argument("--only", default="", help="comma-separated operations (default: all)")
+    ap.add_argument("--pg", metavar="URL", default=None,
+                    help="also run the store operations on this PostgreSQL server (a fresh database per size)")
+    ap.add_argument("--json", metavar="FILE", default=None, help="write every result as JSON")
+    ap.add_argument("--timeout", type=float, default=1800, help="seconds allowed for one operation")
+    ap.add_argument("--keep", action="store_true", help="keep the working folder")
+    # worker mode (internal)
+    ap.add_argument("--worker", help=argparse.SUPPRESS)
+    ap.add_argument("--size", type=int, help=argparse.SUPPRESS)
+    ap.add_argument("--url", help=argparse.SUPPRESS)
+    ap.add_argument("--workdir", help=argparse.SUPPRESS)
+    args = ap.parse_args(argv)
+
+    if args.worker:
+        print(json.dumps(worker(args.worker, args.size, args.url, Path(args.workdir))))
+        return 0
+
+    sizes = [int(s) for s in args.sizes.split(",") if s.strip()]
+    ops = [o.strip() for o in args.only.split(",") if o.strip()] or list(ALL)
+    unknown = set(ops) - set(ALL)
+    if unknown:
+        ap.error(f"unknown operation(s): {', '.join(sorted(unknown))}; choose from {', '.join(ALL)}")
+
+    from vetting.records.catalogue import write_catalogue
+    from vetting.records.synthetic import generate_catalogue
+
+    print(f"machine: {machine()}", flush=True)
+    print(f"command: {' '.join([Path(sys.executable).name, *sys.argv])}", flush=True)
+    workdir = Path(tempfile.mkdtemp(prefix="vetting-bench-"))
+    results: list[dict] = []
+    try:
+        for n in sizes:
+            t0 = time.perf_counter()
+            cat = generate_catalogue(n, seed=SEED)
+            gen = time.perf_counter() - t0
+            write_catalogue(cat, workdir / f"catalogue-{n}.yaml")
+            print(f"\n== {n:,} instruments, {len(cat.jobs)} jobs (generated in {gen:.1f} s)", flush=True)
+            del cat
+            targets = [("sqlite", f"sqlite:///{workdir / f'bench-{n}.db'}")]
+            if args.pg:
+                targets.append(("postgresql", _pg_database(args.pg, f"vetting_bench_{n}")))
+            for backend, url in targets:
+                # the database is filled by the import; without it the other operations need one
+                needed = ["import"] + [o for o in ops if o != "import"]
+                for op in needed:
+                    if backend != "sqlite" and op not in STORE_OPS:
+                        continue
+                    r = _run_worker(op, n, url, workdir, args.timeout)
+                    r["backend"] = backend
+                    if op in ops:
+                        results.append(r)
+                    shown = {k: v for k, v in r.items() if k not in ("op", "size", "backend", "runs")}
+                    print(f"  {backend:10} {op:12} {json.dumps(shown)}", flush=True)
+            # issue 8: ranking results identical on SQLite and PostgreSQL
+            digests = {r["backend"]: r.get("digest") for r in results if r["op"] == "rank" and r["size"] == n}
+            if len(digests) > 1:
+                same = len(set(digests.values())) == 1
+                print(f"  ranking identical on SQLite and PostgreSQL: {'yes' if same else 'NO'} {digests}", flush=True)
+                results.append({"op": "rank-identical", "size": n, "identical": same, "digests": digests})
+    finally:
+        if not args.keep:
+            import shutil
+
+            shutil.rmtree(workdir, ignore_errors=True)
+        else:
+            print(f"working folder kept: {workdir}")
+
+    table_results = [r for r in results if r["op"] in ALL]
+    print("\n" + markdown(table_results, sizes))
+    if args.json:
+        Path(args.json).write_text(json.dumps({"machine": machine(), "sizes": sizes, "results": results}, indent=1))
+        print(f"results written to {args.json}")
+    failed = [r for r in results if "error" in r]
+    for r in failed:
+        print(f"FAILED {r['op']} at {r['size']}: {r['error']}", file=sys.stderr)
+    return 1 if failed else 0
+
+
+if __name__ == "__main__":
+    sys.path.insert(0, str(REPO))
+    raise SystemExit(main())
