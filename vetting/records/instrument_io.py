@@ -47,7 +47,7 @@ CHK = m.SampleCheckRow.__table__
 _CHUNK = 2000
 
 
-def _gc_paused(fn: Callable) -> Callable:
+def gc_paused(fn: Callable) -> Callable:
     """Pause the cyclic garbage collector while building many small objects: the objects built
     here hold no cycles, and repeated full collections over a growing heap otherwise more than
     double the time of a large load."""
@@ -76,7 +76,7 @@ def _grouped(s: Session, table, ids_query, fields: list[str]) -> dict[int, list[
     return out
 
 
-@_gc_paused
+@gc_paused
 def load(s: Session, condition=None) -> list[Instrument]:
     """Instruments matching `condition` (a WHERE clause on the instrument table; None = all),
     in the order they were stored, with all their evidence. Eleven queries in all."""
@@ -219,7 +219,7 @@ def insert_new(s: Session, insts: list[Instrument], *, who: str, now: dt.datetim
     return ids
 
 
-@_gc_paused
+@gc_paused
 def insert_evidence(s: Session, pairs: list[tuple[int, Instrument]]) -> None:
     """Insert the evidence rows of each (instrument id, instrument)."""
     meas, rels, vals, subs, revs, norm_params, norm_tables, sc_params, sc_checks = ([] for _ in range(9))

@@ -74,16 +74,22 @@ def _utc(value: dt.datetime | None) -> dt.datetime | None:
     return value.astimezone(dt.UTC)
 
 
+_PLAIN = (str, int, float, bool, type(None))
+
+
 def _jsonable(value: Any) -> Any:
     """A JSON-compatible snapshot of a domain object for the audit trail."""
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: _jsonable(getattr(value, f.name)) for f in dataclasses.fields(value)}
-    if isinstance(value, dict):
-        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, _PLAIN):
+        return value
     if isinstance(value, (list, tuple)):
         return [_jsonable(v) for v in value]
+    if isinstance(value, dict):
+        return {str(k): _jsonable(v) for k, v in value.items()}
     if isinstance(value, (dt.date, dt.datetime)):
         return value.isoformat()
+    fields = getattr(type(value), "__dataclass_fields__", None)
+    if fields is not None:
+        return {name: _jsonable(getattr(value, name)) for name in fields}
     return value
 
 
@@ -621,6 +627,7 @@ class Store:
 
     # -- catalogues ------------------------------------------------------------
 
+    @instrument_io.gc_paused
     def import_catalogue(self, cat: Catalogue, *, replace: bool = False, source: str | None = None) -> dict[str, int]:
         """Write a whole catalogue in ONE transaction: every record lands, or none does.
 
