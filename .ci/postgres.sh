@@ -111,10 +111,12 @@ EOF
 }
 
 stop_postgres() {
-  if [ -n "${VETTING_PG_DIR:-}" ] && [ -d "$VETTING_PG_DIR/data" ]; then
-    _pg_log "stopping"
-    _pg_as_owner "${VETTING_PG_BIN}/pg_ctl" -D "$VETTING_PG_DIR/data" -m fast -w stop >&2 || true
+  if [ -n "${VETTING_PG_DIR:-}" ] && [ -d "$VETTING_PG_DIR" ]; then
+    if [ -n "${VETTING_PG_BIN:-}" ] && [ -f "$VETTING_PG_DIR/data/postmaster.pid" ]; then
+      _pg_log "stopping"
+      _pg_as_owner "$VETTING_PG_BIN/pg_ctl" -D "$VETTING_PG_DIR/data" -m fast -w stop >&2 || true
+    fi
     rm -rf "$VETTING_PG_DIR"
   fi
-  unset VETTING_PG_DIR VETTING_TEST_PG_URL VETTING_PG_PORT
+  unset VETTING_PG_DIR VETTING_TEST_PG_URL VETTING_PG_PORT VETTING_PG_BIN
 }
