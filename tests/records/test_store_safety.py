@@ -242,3 +242,19 @@ def test_loading_instruments_costs_the_same_few_queries_for_5_or_120(db_url):
         big = _count_selects(s, s.instruments)
         assert small == big
         assert big <= 12
+
+
+def test_a_key_saved_by_someone_else_meanwhile_is_a_key_conflict(db_url, monkeypatch):
+    """Two stores create the same new key at once: the loser gets KeyConflict, not a crash.
+    The race is forced by hiding the other store's row from the existence check."""
+    from vetting.records.errors import KeyConflict
+
+    with Store.open(db_url, user="ana") as ana, Store.open(db_url, user="ben") as ben:
+        ana.import_catalogue(S.catalogue())
+        ben.save_instrument(S.bare_instrument("fresh"))
+        monkeypatch.setattr(Store, "_head", lambda self, s, table, key: None)
+        with pytest.raises(KeyConflict, match="same key"):
+            ana.save_instrument(S.bare_instrument("fresh"))
+        monkeypatch.undo()
+        assert ana.instrument("fresh").row_version == 1
+        assert [e.who for e in ana.audit_events(instrument="fresh")] == ["ben"]

@@ -303,7 +303,13 @@ class Store:
                 with s.begin():
                     yield s
         except IntegrityError as exc:
-            raise RecordsError(f"the database refused the change (nothing was saved): {exc.orig}") from None
+            detail = str(exc.orig).strip().splitlines()[0]
+            if getattr(exc.orig, "sqlstate", None) == "23505" or "UNIQUE constraint failed" in detail:
+                raise KeyConflict(
+                    f"someone else saved a record with the same key at the same moment; nothing was saved "
+                    f"(reload and try again): {detail}"
+                ) from None
+            raise RecordsError(f"the database refused the change (nothing was saved): {detail}") from None
         except OperationalError as exc:
             raise DatabaseUnavailable(_unavailable_message(self.url, exc)) from None
 
