@@ -67,20 +67,20 @@ def columns_for(width: int) -> list[Col]:
     """The table's columns for a terminal `width` (component columns when there is room)."""
     from vetting.appraisal.types import COMPONENT_NAMES, GATE_ORDER
 
-    cols = [Col("rank", "#", 3, "rank"), Col("title", "Instrument", 0, "title")]
-    cols += [Col(f"gate:{g}", GATE_LABELS.get(g, g[:4]), max(4, len(GATE_LABELS.get(g, ""))), "gate", g)
+    cols = [Col("rank", " #", 4, "rank"), Col("title", "Instrument", 0, "title")]
+    cols += [Col(f"gate:{g}", GATE_LABELS.get(g, g[:4]), len(GATE_LABELS.get(g, g[:4])) + 1, "gate", g)
              for g in GATE_ORDER]
-    cols += [Col("score", "Score", 5, "score"), Col("p_best", "P(1st)", 6, "p_best")]
+    cols += [Col("score", "Score", 6, "score"), Col("p_best", "P(1st)", 7, "p_best")]
     if width >= 130:
-        cols += [Col(f"comp:{c}", COMPONENT_LABELS.get(c, c[:4]), 4, "component", c) for c in COMPONENT_NAMES]
-    cols.append(Col("warnings", "⚠", 2, "warnings"))
+        cols += [Col(f"comp:{c}", COMPONENT_LABELS.get(c, c[:4]), 5, "component", c) for c in COMPONENT_NAMES]
+    cols.append(Col("warnings", " ⚠", 3, "warnings"))
     return cols
 
 
 def cell(col: Col, result, chosen: str | None) -> Text | str:
     if col.kind == "rank":
         mark = "▶" if result.instrument == chosen else ""
-        return Text(f"{mark}{result.rank}" if result.rank is not None else f"{mark}✗", no_wrap=True)
+        return Text(f"{mark or ' '}{result.rank if result.rank is not None else '✗'}", no_wrap=True)
     if col.kind == "title":
         return Text(result.title, no_wrap=True, overflow="ellipsis")
     if col.kind == "gate":
@@ -88,17 +88,17 @@ def cell(col: Col, result, chosen: str | None) -> Text | str:
         if gate is None:
             return NO_VALUE
         if gate.passed:
-            return Text("✓!" if gate.warning else "✓", style="green")
-        return Text("✗", style="bold red")
+            return Text(" ✓!" if gate.warning else " ✓", style="green")
+        return Text(" ✗", style="bold red")
     if col.kind == "score":
-        return Text(f"{result.score:.1f}", justify="right")
+        return Text(f"{result.score:5.1f}")
     if col.kind == "p_best":
-        return Text(pct(result.p_best) if result.eligible else NO_VALUE, justify="right")
+        return Text(f"{pct(result.p_best) if result.eligible else NO_VALUE:>6}")
     if col.kind == "component":
         comp = result.components.get(col.name)
-        return Text(num(comp.value if comp else None), justify="right")
+        return Text(f"{num(comp.value if comp else None):>4}")
     if col.kind == "warnings":
-        return Text(str(len(result.warnings)) if result.warnings else "", justify="right")
+        return Text(f"{len(result.warnings):>2}" if result.warnings else "")
     return ""
 
 
@@ -263,7 +263,7 @@ class CompareScreen(Screen):
         with Horizontal(id="working"):
             yield Static("", id="working-text")
             yield ProgressBar(total=3, show_eta=False, id="progress")
-        yield DataTable(id="ranking", cursor_type="cell", zebra_stripes=True)
+        yield DataTable(id="ranking", cursor_type="cell", zebra_stripes=True, cell_padding=0)
         with VerticalScroll(id="detail", can_focus=True):
             yield Static("", id="focus")
             yield Static("", id="row")
@@ -330,8 +330,8 @@ class CompareScreen(Screen):
         keep = table.cursor_coordinate
         table.clear(columns=True)
         self.cols = columns_for(self.app.size.width)
-        fixed = sum(c.width + 2 for c in self.cols if c.kind != "title")
-        title_width = max(12, min(48, self.app.size.width - fixed - 4))
+        fixed = sum(c.width for c in self.cols if c.kind != "title")
+        title_width = max(12, min(56, self.app.size.width - fixed - 3))
         for col in self.cols:
             table.add_column(col.label, key=col.id, width=col.width or title_width)
         chosen = self.chosen
@@ -339,7 +339,7 @@ class CompareScreen(Screen):
             table.add_row(*(cell(c, result, chosen) for c in self.cols), key=result.instrument)
         if self.ranking.results:
             row = min(keep.row, len(self.ranking.results) - 1)
-            column = keep.column if 0 < keep.column < len(self.cols) else 1
+            column = keep.column if 1 < keep.column < len(self.cols) else 2
             table.move_cursor(row=row, column=column, animate=False)
         self._show_chosen()
         self._explain()

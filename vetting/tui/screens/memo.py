@@ -1,0 +1,214 @@
+"""Memo: a preview of the decision memo and its export to Markdown, HTML and Word.
+
+The preview is the memo writer's own Markdown (`vetting.memo`: gather, layout, render), shown
+in Textual's Markdown widget; exporting calls `vetting.memo.api.make_memo` in a thread worker
+(written to a temporary file, then renamed into place) and shows where the file went. The
+choice made on the Compare screen is used; without one, the memo takes the top-ranked
+eligible instrument, as the command line does.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from rich.text import Text
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.screen import Screen
+from textual.widgets import Footer, Markdown, ProgressBar, Static
+from textual.worker import get_current_worker
+
+from vetting.tui.widgets.navbar import NavBar
+from vetting.tui.widgets.results_common import (
+    CautionLine,
+    CautionsScreen,
+    PathPrompt,
+    as_of,
+    chosen_instrument,
+    fixed_now,
+    store_of,
+)
+
+FORMAT_NAMES = {"md": "Markdown", "html": "HTML", "docx": "Word"}
+
+
+def default_memo_path(job_key: str, day, fmt: str) -> str:
+    return str(Path.cwd() / f"memo-{job_key}-{day:%Y-%m-%d}.{fmt}")
+
+
+def preview_markdown(markdown: str) -> str:
+    """The memo's Markdown without its machine-readable stamp (an HTML comment)."""
+    from vetting.memo.render_md import STAMP_PREFIX
+
+    return "\n".join(line for line in markdown.splitlines() if not line.startswith(STAMP_PREFIX)) + "\n"
+
+
+class MemoScreen(Screen):
+    """Preview the memo; export it as Markdown (k), HTML (h) or Word (w)."""
+
+    screen_name = "memo"
+    CSS_PATH = "memo.tcss"
+    AUTO_FOCUS = "#preview"
+
+    BINDINGS = [
+        Binding("w", "export('docx')", "Word", id="memo.docx", tooltip="Write the memo as a Word file"),
+        Binding("h", "export('html')", "HTML", id="memo.html", tooltip="Write the memo as one HTML file"),
+        Binding("k", "export('md')", "Markdown", id="memo.md", tooltip="Write the memo as Markdown"),
+        Binding("f", "toggle_final", "Draft/final", id="memo.final",
+                tooltip="A final memo is recorded as a decision in the database"),
+        Binding("r", "refresh_preview", "Refresh", id="memo.refresh", tooltip="Build the preview again"),
+        Binding("c", "cautions", "Cautions", id="memo.cautions", tooltip="Every caution for these results"),
+    ]
+
+    def __init__(self, store_url: str, job_key: str | None = None) -> None:
+        super().__init__()
+        self.store_url = store_url
+        self.job_key = job_key
+        self.final = False
+        self.markdown = ""
+        self.written: list[Path] = []
+        self.error: str | None = None
+
+    def compose(self) -> ComposeResult:
+        yield NavBar("memo")
+        yield Static(f"Memo · {self.job_key or 'no job'}", id="heading", classes="title-bar")
+        yield Static("", id="state", classes="status-line")
+        with Horizontal(id="working"):
+            yield Static("", id="working-text")
+            yield ProgressBar(total=3, show_eta=False, id="progress")
+        with VerticalScroll(id="preview"):
+            yield Markdown("", id="memo-md")
+        yield Static("", id="written", classes="status-line")
+        yield CautionLine()
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self._show_state()
+        self.build_preview()
+
+    # -- state -------------------------------------------------------------------------------
+
+    @property
+    def choice(self) -> str | None:
+        return chosen_instrument(self.app, self.job_key)
+
+    def _show_state(self) -> None:
+        text = Text(no_wrap=True, overflow="ellipsis")
+        text.append("Choice ", style="bold")
+        text.append(f"▶ {self.choice} (chosen on Compare)" if self.choice else "top-ranked eligible (none chosen)")
+        text.append(" · Status ", style="bold")
+        if self.final:
+            text.append("FINAL: recorded as a decision on export", style="bold reverse")
+        else:
+            text.append("draft (f: final)")
+        self.query_one("#state", Static).update(text)
+
+    def _working(self, step: int, words: str) -> None:
+        self.query_one("#working").display = True
+        self.query_one("#working-text", Static).update(words)
+        self.query_one(ProgressBar).update(total=3, progress=step)
+
+    def _done_working(self) -> None:
+        self.query_one(ProgressBar).update(progress=3)
+        self.query_one("#working").display = False
+
+    # -- preview -----------------------------------------------------------------------------
+
+    @work(thread=True, exclusive=True, group="memo-preview")
+    def build_preview(self) -> None:
+        from vetting.memo import render_md
+        from vetting.memo.build import gather, layout
+
+        worker = get_current_worker()
+        call = self.app.call_from_thread
+        call(self._working, 0, "Reading the records…")
+        try:
+            store = store_of(self, self.store_url)
+            call(self._working, 1, "Ranking and planning for the memo…")
+            data = gather(store, self.job_key, choose=self.choice, status="final" if self.final else "draft",
+                          as_of=as_of(self), now=fixed_now(self))
+            call(self._working, 2, "Laying out…")
+            markdown = render_md.render(layout(data))
+        except Exception as exc:
+            if not worker.is_cancelled:
+                call(self._preview_failed, exc)
+            return
+        if not worker.is_cancelled:
+            call(self._previewed, preview_markdown(markdown))
+
+    def _preview_failed(self, exc: Exception) -> None:
+        self._done_working()
+        self.error = str(exc)
+        self.query_one("#memo-md", Markdown).update(f"**✗ No memo can be made yet:** {exc}")
+        self.notify(str(exc), title="Memo", severity="error", timeout=10)
+
+    def _previewed(self, markdown: str) -> None:
+        self.error = None
+        self.markdown = markdown
+        self.query_one("#memo-md", Markdown).update(markdown)
+        self._done_working()
+
+    # -- export ------------------------------------------------------------------------------
+
+    def action_export(self, fmt: str) -> None:
+        if self.job_key is None:
+            return
+        default = default_memo_path(self.job_key, as_of(self), fmt)
+        question = f"Write the {FORMAT_NAMES[fmt]} memo ({'FINAL, recorded' if self.final else 'draft'}) to:"
+
+        def answered(path: str | None) -> None:
+            if path:
+                self.export(fmt, path)
+
+        self.app.push_screen(PathPrompt(question, default), answered)
+
+    @work(thread=True, exclusive=True, group="memo-export")
+    def export(self, fmt: str, path: str) -> None:
+        from vetting.memo.api import make_memo
+
+        call = self.app.call_from_thread
+        call(self._working, 1, f"Writing the {FORMAT_NAMES[fmt]} memo…")
+        try:
+            store = store_of(self, self.store_url)
+            result = make_memo(store, self.job_key, fmt=fmt, out=path, choose=self.choice, final=self.final,
+                               as_of=as_of(self), now=fixed_now(self))
+        except Exception as exc:  # the memo writer's message names the path and the rule
+            call(self._export_failed, fmt, exc)
+            return
+        call(self._exported, result)
+
+    def _export_failed(self, fmt: str, exc: Exception) -> None:
+        self._done_working()
+        message = str(exc).replace("--out ", "")
+        self.query_one("#written", Static).update(Text(f"✗ {FORMAT_NAMES[fmt]} memo not written: {message}",
+                                                      style="bold"))
+        self.notify(message, title="Not written", severity="error", timeout=12)
+
+    def _exported(self, result) -> None:
+        self._done_working()
+        self.written.append(result.path)
+        status = "final, recorded as a decision" if result.status == "final" else "draft"
+        self.query_one("#written", Static).update(
+            Text(f"✓ {FORMAT_NAMES[result.fmt]} memo ({status}) written to {result.path}"))
+        self.notify(f"{result.path}", title=f"{FORMAT_NAMES[result.fmt]} memo written", timeout=10)
+
+    # -- other keys --------------------------------------------------------------------------
+
+    def action_toggle_final(self) -> None:
+        self.final = not self.final
+        self._show_state()
+        if self.final:
+            self.notify("Exports will be FINAL memos, each recorded as a decision with its fingerprint. "
+                        "Press f again for drafts.", title="Final", severity="warning", timeout=8)
+        self.build_preview()
+
+    def action_refresh_preview(self) -> None:
+        self.build_preview()
+
+    def action_cautions(self) -> None:
+        from vetting.appraisal.types import CAUTIONS
+        from vetting.memo.build import MEMO_CAUTIONS
+
+        self.app.push_screen(CautionsScreen(tuple(CAUTIONS) + tuple(MEMO_CAUTIONS)))
