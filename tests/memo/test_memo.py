@@ -265,3 +265,20 @@ def test_bad_input_leaves_nothing_behind(store, tmp_path):
 def test_draft_leaves_no_decision(store, tmp_path):
     make_memo(store, JOB, fmt="md", out=tmp_path / "m.md", as_of=AS_OF)
     assert store.decisions(JOB) == []
+
+
+@pytest.mark.parametrize("fmt_", ["md", "html", "docx"])
+def test_author_with_comment_and_markup_cannot_break_the_stamp(store, tmp_path, fmt_):
+    # the author's name is user text that also goes into the machine-readable stamp; '-->'
+    # would end a Markdown/HTML comment early and '"' would end an HTML attribute
+    by = 'Ann "Q" --> <script>x</script> & co'
+    out = tmp_path / f"memo.{fmt_}"
+    res = make_memo(store, JOB, fmt=fmt_, out=out, by=by, as_of=AS_OF)
+    from vetting.memo.api import read_stamp_file
+
+    stamp = read_stamp_file(out)
+    assert stamp["by"] == by and stamp["fingerprint"] == res.fingerprint
+    if fmt_ != "docx":
+        raw = out.read_text(encoding="utf-8")
+        assert "<script>" not in raw
+    assert verify(store, str(out)).matches

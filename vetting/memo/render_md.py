@@ -86,8 +86,11 @@ def render(doc: Document) -> str:
     for section in doc.sections:
         lines += _section(section, 2)
     stamp = json.dumps(doc.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
-    # the stamp is JSON of keys and hex digests; '--' cannot occur in it, so the comment is safe
-    lines.append(STAMP_PREFIX + stamp.replace("--", "-\\u002d") + STAMP_SUFFIX)
+    # '<', '>', '&' and '--' can only occur inside JSON strings (the author's name): write them
+    # as JSON escapes so that nothing in the stamp can end the comment or look like markup
+    for ch, esc in (("&", "\\u0026"), ("<", "\\u003c"), (">", "\\u003e"), ("--", "-\\u002d")):
+        stamp = stamp.replace(ch, esc)
+    lines.append(STAMP_PREFIX + stamp + STAMP_SUFFIX)
     return "\n".join(lines) + "\n"
 
 
