@@ -35,12 +35,16 @@ __all__ = [
     "RuleError",
     "allowed_fields",
     "check_field",
+    "check_item",
+    "check_percentile_table",
     "check_record",
+    "check_value",
     "check_text",
     "check_weights",
     "coerce",
     "describe",
     "suggest",
+    "what_is",
 ]
 
 MAX_KEY_LENGTH = 100
