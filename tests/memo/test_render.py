@@ -145,3 +145,15 @@ def test_charts_render(fmt):
         assert out.startswith("<svg") and "<metadata>" not in out
     else:
         assert out[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec, W3C 2003, section 5.2)
+
+
+def test_html_ids_are_unique_and_every_reference_resolves():
+    # HTML requires ids to be unique in a document (WHATWG HTML, section 3.2.6 "The id attribute")
+    import re
+
+    out = render_html.render(_doc())
+    ids = re.findall(r' id="([^"]+)"', out)
+    assert len(ids) == len(set(ids))
+    refs = set(re.findall(r'href="#([^"]+)"', out)) | set(re.findall(r"url\(#([^)]+)\)", out))
+    assert refs and refs <= set(ids)
+    assert "http" not in out  # not even namespace addresses

@@ -105,8 +105,11 @@ def _draw_distribution(ax, chart: DistributionChart) -> None:
     ax.legend(fontsize=7, loc="upper left", frameon=False)
 
 
-def to_svg(chart: Chart) -> str:
-    """The chart as an inline <svg> element (no XML prolog, no outside references)."""
+def to_svg(chart: Chart, id_prefix: str = "") -> str:
+    """The chart as an inline <svg> element (no XML prolog, no outside references).
+
+    id_prefix is put before every id (and every reference to one), so that several charts in
+    one HTML page do not share ids."""
     plt = _plt()
     fig = _draw(chart)
     buf = io.StringIO()
@@ -117,7 +120,17 @@ def to_svg(chart: Chart) -> str:
     text = buf.getvalue()
     text = text[text.index("<svg") :]
     # drop the RDF metadata block: it only names vocabularies by URL and adds nothing to read
-    return re.sub(r"\s*<metadata>.*?</metadata>", "", text, flags=re.S)
+    text = re.sub(r"\s*<metadata>.*?</metadata>", "", text, flags=re.S)
+    # inline in HTML the parser puts <svg> in the SVG namespace and knows xlink:href by itself
+    # (WHATWG HTML, "Parsing main inforeign"), so the namespace URLs are not needed: the file
+    # then names no outside address at all
+    text = text.replace(' xmlns="http://www.w3.org/2000/svg"', "", 1).replace(
+        ' xmlns:xlink="http://www.w3.org/1999/xlink"', "", 1
+    )
+    if id_prefix:
+        text = text.replace(' id="', f' id="{id_prefix}').replace('href="#', f'href="#{id_prefix}')
+        text = text.replace("url(#", f"url(#{id_prefix}")
+    return text
 
 
 def to_png(chart: Chart, dpi: int = 200) -> bytes:

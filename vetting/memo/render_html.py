@@ -81,7 +81,7 @@ def _table(table: Table) -> str:
     return "".join(parts)
 
 
-def _block(block) -> str:
+def _block(block, ids: list[int] | None = None) -> str:
     if isinstance(block, Paragraph):
         cls = f' class="{block.style}"' if block.style != "normal" else ""
         return f"<p{cls}>{escape(block.text)}</p>"
@@ -97,7 +97,10 @@ def _block(block) -> str:
         lines = "".join(f"<p>{escape(line)}</p>" for line in block.lines)
         return f'<div class="callout {kind}"><p class="title">{escape(block.title)}</p>{lines}</div>'
     if isinstance(block, Figure):
-        svg = charts.to_svg(block.chart)
+        n = len(ids) + 1 if ids is not None else 1
+        if ids is not None:
+            ids.append(n)
+        svg = charts.to_svg(block.chart, id_prefix=f"chart{n}-")
         return (
             f'<figure role="img" aria-label="{escape(block.caption)}">{svg}'
             f"<figcaption>{escape(block.caption)}</figcaption></figure>"
@@ -105,11 +108,11 @@ def _block(block) -> str:
     raise TypeError(f"unknown block {type(block).__name__}")
 
 
-def _section(section: Section, level: int) -> str:
+def _section(section: Section, level: int, ids: list[int]) -> str:
     tag = f"h{min(level, 6)}"
     parts = [f'<section id="{escape(section.key)}"><{tag}>{escape(section.title)}</{tag}>']
-    parts += [_block(b) for b in section.blocks]
-    parts += [_section(s, level + 1) for s in section.subsections]
+    parts += [_block(b, ids) for b in section.blocks]
+    parts += [_section(s, level + 1, ids) for s in section.subsections]
     parts.append("</section>")
     return "\n".join(parts)
 
@@ -134,7 +137,8 @@ def render(doc: Document) -> str:
         "</header>",
         "<main>",
     ]
-    body = [_section(s, 2) for s in doc.sections]
+    ids: list[int] = []
+    body = [_section(s, 2, ids) for s in doc.sections]
     tail = ["</main>", "</body>", "</html>", ""]
     return "\n".join(head + body + tail)
 
