@@ -282,3 +282,27 @@ def test_author_with_comment_and_markup_cannot_break_the_stamp(store, tmp_path, 
         raw = out.read_text(encoding="utf-8")
         assert "<script>" not in raw
     assert verify(store, str(out)).matches
+
+
+def test_saving_records_unchanged_is_not_a_change(store, tmp_path):
+    # row versions and evidence row ids change on every save; the evidence does not
+    out = tmp_path / "memo.md"
+    make_memo(store, JOB, fmt="md", out=out, as_of=AS_OF)
+    for key in (TOP, ALT, FAILER):
+        store.save_instrument(store.instrument(key))
+    store.save_job(store.job(JOB))
+    result = verify(store, str(out))
+    assert result.matches, (result.changed, result.missing)
+
+
+def test_verify_by_fingerprint_without_the_memo_file(store, tmp_path):
+    out = tmp_path / "memo.html"
+    res = make_memo(store, JOB, fmt="html", out=out, final=True, as_of=AS_OF)
+    out.unlink()
+    result = verify(store, res.fingerprint)
+    assert result.matches and any("not available" in n for n in result.notes)
+    job = store.job(JOB)
+    job.hires_per_year = 40
+    store.save_job(job)
+    result = verify(store, res.fingerprint)
+    assert not result.matches and result.changed
