@@ -670,7 +670,7 @@ def _robustness(doc: Document, data: MemoData) -> None:
     if alt.alternatives:
         sub.add(
             Table(
-                ["Instrument", "Conservative validity", "Difference", "Expected impact ratio", "Gain", "Score", "Why"],
+                ["Instrument", "Conservative validity", "Validity difference", "Expected impact ratio", "Impact ratio gain", "Score", "Why"],
                 [
                     [
                         f"{a.title} ({a.instrument})",
@@ -725,7 +725,7 @@ def _planned_use(doc: Document, data: MemoData) -> None:
                 ("Base rate", fmt.r2(plan.base_rate)),
                 ("Expected success rate of those hired", fmt.pct(plan.expected_success_rate)),
                 ("Mean criterion gain of those hired (z)", fmt.r2(plan.mean_criterion_z)),
-                ("Utility of one year's hiring", fmt.money(plan.utility_per_year, data.chosen_instrument.currency)),
+                ("Utility of one year's hiring (money units of the job's criterion SD)", fmt.money(plan.utility_per_year)),
                 ("Expected impact ratio", fmt.r2(plan.impact_ratio)),
             ]
         )
@@ -746,7 +746,7 @@ def _planned_use(doc: Document, data: MemoData) -> None:
                     fmt.num(pt.cut.percentile, 1),
                     fmt.pct(pt.expected_success_rate),
                     fmt.r2(pt.impact_ratio),
-                    fmt.money(pt.utility_per_year, data.chosen_instrument.currency),
+                    fmt.money(pt.utility_per_year),
                 ]
                 for pt in data.sweep
             ],
