@@ -20,6 +20,7 @@ import datetime as dt
 import math
 import os
 import re
+import sys
 import tempfile
 from pathlib import Path
 from typing import Any
@@ -71,16 +72,29 @@ _DATE_RE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 
 
 class _Node:
-    """A YAML node: kind 'map' | 'seq' | 'scalar'. Maps hold [(key node, value node)]."""
+    """A YAML mapping ('map') or sequence ('seq'). A sequence holds nodes; a mapping holds
+    (field name, line of the name, value node) triples, in file order, duplicates included."""
 
-    __slots__ = ("kind", "tag", "value", "line", "items")
+    __slots__ = ("kind", "line", "items", "pending")
+    tag = None
 
-    def __init__(self, kind: str, tag: str, value: str | None, line: int) -> None:
+    def __init__(self, kind: str, line: int) -> None:
         self.kind = kind
+        self.line = line
+        self.items: list[Any] = []
+        self.pending: tuple[str, int] | None = None  # a mapping's key waiting for its value
+
+
+class _Scalar:
+    """A YAML scalar: its resolved tag, its text as written, and its line."""
+
+    __slots__ = ("tag", "value", "line")
+    kind = "scalar"
+
+    def __init__(self, tag: str, value: str, line: int) -> None:
         self.tag = tag
         self.value = value
         self.line = line
-        self.items: list[Any] | None = [] if kind != "scalar" else None
 
 
 class _Stop(Exception):
@@ -139,6 +153,7 @@ def _read_tree(text: str, filename: str) -> _Node | None:
     scalar_event, seq_start, map_start = yaml.ScalarEvent, yaml.SequenceStartEvent, yaml.MappingStartEvent
     collection_end = (yaml.SequenceEndEvent, yaml.MappingEndEvent)
     str_tag = _T + "str"
+    null_tag = _T + "null"
     resolved: dict[str, str] = {}  # plain scalar -> its implicit tag (same text, same tag)
     try:
         for event in yaml.parse(text, Loader=_Loader):
@@ -174,24 +189,29 @@ def _read_tree(text: str, filename: str) -> _Node | None:
                     if tag == _T + "merge":
                         raise _Stop(line, "YAML merge keys (<<) are not allowed in a catalogue; write each field out")
                     raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
-                node = _Node("scalar", tag, value, line or 0)
+                if len(value) <= 40:
+                    value = sys.intern(value)  # field names and short values repeat a lot
+                node = _Scalar(tag, value, line or 0)
             elif cls is seq_start or cls is map_start:
                 kind = "seq" if cls is seq_start else "map"
-                want = _T + kind
                 tag = event.tag
-                if tag not in (None, "!", want):
+                if tag not in (None, "!", _T + kind):
                     raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
-                node = _Node(kind, want, None, line or 0)
+                node = _Node(kind, line or 0)
             else:
                 continue
             if stack:
                 parent = stack[-1]
                 if parent.kind == "seq":
                     parent.items.append(node)
-                elif parent.items and parent.items[-1][1] is None:
-                    parent.items[-1][1] = node
+                elif parent.pending is None:  # this node is a field name
+                    if node.kind != "scalar" or node.tag == null_tag:
+                        raise _Stop(line, "field names must be plain words (found a list, mapping or empty name)")
+                    parent.pending = (node.value, node.line)
+                    continue
                 else:
-                    parent.items.append([node, None])
+                    parent.items.append((parent.pending[0], parent.pending[1], node))
+                    parent.pending = None
             else:
                 root = node
             if node.kind != "scalar":
@@ -346,8 +366,7 @@ class _Checker:
             return _BAD
         raw: dict[str, Any] = {}
         lines: dict[str, int] = {}
-        for key_node, value_node in self.pairs(node, path):
-            name = key_node.value
+        for name, _line, value_node in self.pairs(node, path):
             value = self.scalar(value_node, rule, f"{path}.{name}", text=False)
             if value is _BAD:
                 raw[name] = 0.0  # keep the name so the sum check does not misfire
@@ -365,21 +384,17 @@ class _Checker:
         return {name: float(raw.get(name, 0.0)) for name in d.WEIGHT_NAMES}
 
     # -- mappings ----------------------------------------------------------
-    def pairs(self, node: _Node, path: str) -> list[tuple[_Node, _Node]]:
-        """Key/value pairs of a mapping with plain keys, reporting duplicate and odd keys."""
+    def pairs(self, node: _Node, path: str) -> list[tuple[str, int, Any]]:
+        """(name, line, value node) of a mapping, reporting names given twice."""
         out = []
         first: dict[str, int] = {}
-        for key_node, value_node in node.items:
-            if key_node.kind != "scalar" or key_node.tag == _T + "null":
-                self.add(key_node.line, path or "(top)", "field names must be plain words")
-                continue
-            name = key_node.value
+        for name, line, value_node in node.items:
             where = f"{path}.{name}" if path else name
             if name in first:
-                self.add(key_node.line, where, f"is given twice in the same place (first on line {first[name]})")
+                self.add(line, where, f"is given twice in the same place (first on line {first[name]})")
                 continue
-            first[name] = key_node.line
-            out.append((key_node, value_node if value_node is not None else _Node("scalar", _T + "null", "", key_node.line)))
+            first[name] = line
+            out.append((name, line, value_node))
         return out
 
     def record(self, node: _Node, entity: str, path: str) -> dict[str, Any] | None:
@@ -393,16 +408,15 @@ class _Checker:
         values: dict[str, Any] = {}
         lines: dict[str, int] = {}
         bad: set[str] = set()
-        for key_node, value_node in self.pairs(node, path):
-            name = key_node.value
+        for name, key_line, value_node in self.pairs(node, path):
             fpath = f"{path}.{name}" if path else name
             rule = table.get(name)
             if rule is None:
                 hint = rules.suggest(name, list(table))
                 if hint:
-                    self.add(key_node.line, fpath, f"unknown field {name[:60]!r}; did you mean {hint!r}?")
+                    self.add(key_line, fpath, f"unknown field {name[:60]!r}; did you mean {hint!r}?")
                 else:
-                    self.add(key_node.line, fpath, f"unknown field {name[:60]!r} (allowed here: {', '.join(table)})")
+                    self.add(key_line, fpath, f"unknown field {name[:60]!r} (allowed here: {', '.join(table)})")
                 continue
             lines[name] = value_node.line
             is_null = value_node.kind == "scalar" and value_node.tag == _T + "null"
@@ -428,6 +442,7 @@ class _Checker:
                 items = []
                 for i, item in enumerate(value_node.items):
                     sub = self.record(item, rule.entity, f"{fpath}[{i}]")
+                    value_node.items[i] = None  # checked: free its nodes (keeps memory flat at scale)
                     if sub is not None:
                         sub["__line__"] = item.line
                         sub["__index__"] = i
@@ -469,7 +484,7 @@ class _Checker:
         if root.kind != "map":
             self.add(root.line, "", "a catalogue must be a mapping that starts with 'format: 1'")
             return None
-        fmt = next((v for k, v in root.items if k.kind == "scalar" and k.value == "format"), None)
+        fmt = next((v for k, _line, v in root.items if k == "format"), None)
         if fmt is None:
             self.add(root.line, "format", "is missing: the first line of a catalogue must be 'format: 1'")
             return None
@@ -577,15 +592,13 @@ def _declared_attribute_keys(root: _Node | None) -> set[str]:
     out: set[str] = set()
     if root is None or root.kind != "map":
         return out
-    for key_node, value_node in root.items:
-        if key_node.kind == "scalar" and key_node.value == "attributes" and value_node is not None:
-            if value_node.kind != "seq":
-                continue
+    for name, _line, value_node in root.items:
+        if name == "attributes" and value_node.kind == "seq":
             for item in value_node.items:
                 if item.kind != "map":
                     continue
-                for k, v in item.items:
-                    if k.kind == "scalar" and k.value == "key" and v is not None and v.kind == "scalar":
+                for k, _kline, v in item.items:
+                    if k == "key" and v.kind == "scalar":
                         out.add(v.value)
     return out
 
@@ -616,12 +629,14 @@ def parse_catalogues(
             declared |= _declared_attribute_keys(tree[1])
     checked: list[tuple[str, dict[str, Any]]] = []
     truncated = False
-    for tree in trees:
-        if tree is None:
+    for index in range(len(trees)):
+        if trees[index] is None:
             continue
-        name, root = tree
+        name, root = trees[index]
+        trees[index] = None  # let the node tree go as soon as it is checked (memory at scale)
         checker = _Checker(name, declared)
         values = checker.catalogue(root)
+        del root
         if not checker.problems and values is None:  # pragma: no cover - defensive
             checker.add(None, "", "the catalogue could not be read")
         problems.extend(sorted(checker.problems, key=lambda p: p.line if p.line is not None else 0))
