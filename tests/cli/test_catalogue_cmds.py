@@ -49,9 +49,13 @@ jobs:
 """
 
 
-@pytest.fixture
-def db(tmp_path):
-    return f"sqlite:///{tmp_path / 'cli.db'}"
+@pytest.fixture(params=["sqlite", "postgresql"])
+def db(request, tmp_path):
+    """A fresh SQLite file, and a fresh PostgreSQL database when a server is available
+    (VETTING_TEST_PG_URL; skipped loudly otherwise, see tests/conftest.py)."""
+    if request.param == "sqlite":
+        return f"sqlite:///{tmp_path / 'cli.db'}"
+    return request.getfixturevalue("pg_url")
 
 
 def write(tmp_path: Path, name: str, text: str | bytes) -> Path:
