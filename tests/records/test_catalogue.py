@@ -360,8 +360,9 @@ def test_same_attribute_twice_in_one_job():
         ("attributes: []\n", 1, "first line of a catalogue must be 'format: 1'"),
         ("format: 2\n", 1, "unsupported catalogue format '2'; this version of vetting reads format 1"),
         ("format: one\n", 1, "unsupported catalogue format 'one'"),
+        ('format: "1"\n', 1, "must be the number 1, not text"),
     ],
-    ids=["missing", "future", "words"],
+    ids=["missing", "future", "words", "quoted"],
 )
 def test_format_version(text, line, fragment):
     assert_problem(text, line, "format", fragment)

@@ -101,6 +101,10 @@ def test_coerce_turns_form_text_into_checked_values():
         coerce("review", "date", "14/09/2026")
     with pytest.raises(RuleError, match="whole number"):
         coerce("validity", "n", "24.5")
+    with pytest.raises(RuleError, match="got text '1_000'"):
+        coerce("validity", "n", "1_000")
+    with pytest.raises(RuleError, match="got inf"):
+        coerce("instrument", "minutes", "inf")
 
 
 def test_cross_field_rules_on_mappings_and_domain_objects():

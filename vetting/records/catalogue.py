@@ -491,6 +491,9 @@ class _Checker:
         value = self.scalar(fmt, rules.ENTITIES["catalogue"]["format"], "format", text=False) if fmt else None
         if value is _BAD:
             return None
+        if isinstance(value, str) and value.strip() == str(FORMAT_VERSION):
+            self.add(fmt.line, "format", f"must be the number {FORMAT_VERSION}, not text: write 'format: {FORMAT_VERSION}'")
+            return None
         if isinstance(value, bool) or value != FORMAT_VERSION:
             shown = fmt.value if fmt.kind == "scalar" else "a list or mapping"
             self.add(

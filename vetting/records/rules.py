@@ -576,20 +576,17 @@ def coerce(entity: str, field: str, text: str) -> Any:
             raise RuleError("is required")
         return value
     k = rule.kind
-    if k in ("int", "year"):
+    if k in ("int", "year", "number"):
         try:
-            value = int(stripped.replace("_", "x"))
-        except ValueError:
-            try:
-                f = float(stripped)
-            except ValueError:
-                raise RuleError(f"must be {describe(rule)}; got {what_is(stripped)}") from None
-            value = int(f) if math.isfinite(f) and f.is_integer() else f
-    elif k == "number":
-        try:
-            value = float(stripped.replace("_", "x"))
+            if "_" in stripped:  # Python would read 1_000; a person typing it made a slip
+                raise ValueError(stripped)
+            number = float(stripped)
         except ValueError:
             raise RuleError(f"must be {describe(rule)}; got {what_is(stripped)}") from None
+        if k != "number" and math.isfinite(number) and number.is_integer():
+            value = int(number)
+        else:
+            value = number
     elif k == "bool":
         low = stripped.lower()
         if low in _TRUE:
