@@ -155,3 +155,18 @@ def test_filter_and_sort_helpers_on_many_rows():
     assert [r.summary.best_reliability for r in present] == sorted(
         (r.summary.best_reliability for r in present), reverse=True
     )
+
+
+async def test_table_holds_a_capped_number_of_rows_and_filter_reaches_all(seeded_url, app_for, settle, monkeypatch):
+    monkeypatch.setattr(CatalogueScreen, "MAX_TABLE_ROWS", 2)
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        table = screen.query_one(DataTable)
+        assert len(screen.shown) == 3 and table.row_count == 2
+        assert "first 2 of 3 shown: type to narrow" in str(screen.query_one("#status").render())
+        # the row past the cap is still found by sorting and filtering
+        await pilot.press(*"tally")
+        await pilot.pause(0.3)
+        assert table.row_count == 1 and _titles(screen) == ["Tally Quick Numbers"]

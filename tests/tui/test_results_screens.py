@@ -18,6 +18,7 @@ against facts of the trade that hold whatever our code does:
 from __future__ import annotations
 
 import dataclasses
+import datetime as dt
 
 import pytest
 from scipy.stats import norm
@@ -37,10 +38,16 @@ SIZES = [pytest.param((80, 24), id="80x24"), pytest.param((140, 40), id="140x40"
 JOB = "claims-clerk"
 
 
+#: the records' own clock during these tests, so timestamps (and the memo's fingerprint over
+#: the policy record, which holds them) are the same on every run
+RECORDS_NOW = dt.datetime(2026, 5, 20, 9, 30, tzinfo=dt.timezone.utc)
+
+
 @pytest.fixture
-def seeded_url(db_url) -> str:
+def seeded_url(db_url, monkeypatch) -> str:
     """The shared invented catalogue, with the job's base rate, criterion SD and tenure filled in
-    (the planner needs them for the success rate and utility)."""
+    (the planner needs them for the success rate and utility), written on a fixed clock."""
+    monkeypatch.setattr("vetting.records.store.utcnow", lambda: RECORDS_NOW)
     attributes, instruments, jobs = invented_catalogue()
     job = dataclasses.replace(jobs[0], base_rate=0.5, criterion_sd=9000.0, tenure_years=3.0)
     with Store.open(db_url, user="seed-user") as store:

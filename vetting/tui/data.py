@@ -96,12 +96,12 @@ class Data:
         summarise = _summariser()
         store = self.store
         names = {a.key: a.name for a in store.attributes()}
+        if progress is not None:
+            progress(0, len(store.instrument_keys()))
         instruments = store.instruments()
         as_of = self.as_of()
         rows: list[CatalogueRow] = []
         total = len(instruments)
-        if progress is not None:
-            progress(0, total)
         for index, inst in enumerate(instruments, start=1):
             if cancelled is not None and index % 200 == 0 and cancelled():
                 break

@@ -124,6 +124,9 @@ class CatalogueScreen(Screen):
     ]
 
     DEBOUNCE_SECONDS = 0.08
+    #: the table holds at most this many rows (the best by the current sort); typing narrows
+    #: the list. Sorting and filtering always work on every instrument, in memory.
+    MAX_TABLE_ROWS = 400
 
     def __init__(self) -> None:
         super().__init__()
@@ -216,12 +219,12 @@ class CatalogueScreen(Screen):
         table = self.query_one(DataTable)
         keep = self._keys[table.cursor_row] if 0 <= table.cursor_row < len(self._keys) else None
         self.shown = shown
+        visible = shown[: self.MAX_TABLE_ROWS]
         table.clear()
-        table.add_rows(
-            ([c.cell(r) for c in COLUMNS] for r in shown),
-        )
-        # add_rows cannot take keys; give each row its instrument key
-        self._keys = [r.key for r in shown]
+        # plain Text cells: no markup parsing of titles typed by people
+        table.add_rows([Text(c.cell(r), no_wrap=True, justify="right" if c.right else "left") for c in COLUMNS]
+                       for r in visible)
+        self._keys = [r.key for r in visible]
         if keep in self._keys:
             table.move_cursor(row=self._keys.index(keep), animate=False)
         self._update_counts()
@@ -236,6 +239,8 @@ class CatalogueScreen(Screen):
         if col.id == "title":
             order = "Z to A" if self.sort_reverse else "A to Z"
         status = f"sorted by {col.label.lower()} ({order}) · {NO_VALUE} = no evidence on record"
+        if shown > self.MAX_TABLE_ROWS:
+            status = f"first {self.MAX_TABLE_ROWS:,} of {shown:,} shown: type to narrow · " + status
         if not total:
             status = "No instruments yet. Press ctrl+n to add one, or import a catalogue file."
         elif not shown:
