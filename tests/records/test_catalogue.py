@@ -455,6 +455,14 @@ def test_huge_scalar_is_refused():
     assert_problem(text, 2, "", "a value is too long")
 
 
+def test_too_many_values_are_refused(monkeypatch):
+    monkeypatch.setattr(cio, "MAX_NODES", 50)
+    text = "format: 1\nattributes:\n" + "".join(f"  - {{key: a{i}, name: x}}\n" for i in range(20))
+    # each attribute is 5 values (its mapping, two names, two values): the 50-value budget runs out
+    # on the 10th attribute, line 12
+    assert_problem(text, 12, "", "too many values to be a catalogue")
+
+
 def test_huge_number_is_a_problem_not_a_crash():
     text = VALID.replace("    applicants_per_year: 240", "    applicants_per_year: " + "9" * 5000)
     assert_problem(text, line_of(text, "applicants_per_year"), "jobs[0].applicants_per_year", "cannot read")

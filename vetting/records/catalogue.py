@@ -35,6 +35,7 @@ __all__ = [
     "FORMAT_VERSION",
     "MAX_BYTES",
     "MAX_DEPTH",
+    "MAX_NODES",
     "MAX_PROBLEMS",
     "MAX_SCALAR_CHARS",
     "dump_catalogue",
@@ -55,6 +56,9 @@ MAX_BYTES = 64 * 1024 * 1024
 MAX_DEPTH = 20
 #: Longest single value accepted (characters).
 MAX_SCALAR_CHARS = 100_000
+#: Most values (scalars, lists and mappings) accepted in one file: bounds the reader's memory
+#: (about 110 bytes a value) whatever the file holds. 10,000 documented instruments need ~2.5 million.
+MAX_NODES = 4_000_000
 #: Problems reported before giving up on a file.
 MAX_PROBLEMS = 50
 
@@ -155,6 +159,7 @@ def _read_tree(text: str, filename: str) -> _Node | None:
     str_tag = _T + "str"
     null_tag = _T + "null"
     resolved: dict[str, str] = {}  # plain scalar -> its implicit tag (same text, same tag)
+    budget = MAX_NODES
     try:
         for event in yaml.parse(text, Loader=_Loader):
             cls = type(event)
@@ -200,6 +205,11 @@ def _read_tree(text: str, filename: str) -> _Node | None:
                 node = _Node(kind, line or 0)
             else:
                 continue
+            budget -= 1
+            if budget < 0:
+                raise _Stop(
+                    line, f"the file holds too many values to be a catalogue (more than {MAX_NODES:,}); split it"
+                )
             if stack:
                 parent = stack[-1]
                 if parent.kind == "seq":
