@@ -172,3 +172,26 @@ if __name__ == "__main__":  # regenerate the stored database (only ever for a NE
         raise SystemExit(f"{STORED_REV1} exists; stored databases are never regenerated")
     build_rev1_database(STORED_REV1)
     print(f"wrote {STORED_REV1}")
+
+
+def test_many_stores_opening_a_new_database_at_once_all_succeed(db_url):
+    """Four threads open the same brand-new database together: the schema is created once."""
+    import threading
+
+    errors = []
+
+    def opener():
+        try:
+            with Store.open(db_url) as s:
+                s.instrument_keys()
+        except Exception as exc:  # pragma: no cover - the failure being tested
+            errors.append(repr(exc))
+
+    threads = [threading.Thread(target=opener) for _ in range(4)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert errors == []
+    with Store.open(db_url) as s:
+        assert engines.current_revision(s._engine) == engines.head_revision()

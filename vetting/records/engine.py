@@ -27,6 +27,8 @@ MIGRATIONS_DIR = Path(__file__).resolve().parent / "migrations"
 BUSY_TIMEOUT_MS = 30_000
 #: execution option marking a unit of work that writes (SQLite: BEGIN IMMEDIATE)
 WRITE_OPTION = "vetting_write"
+#: advisory-lock number that serialises schema upgrades on one PostgreSQL database
+_PG_MIGRATION_LOCK = 0x76657474  # "vett"
 
 
 def sqlite_path(url: str) -> Path | None:
@@ -142,5 +144,9 @@ def upgrade(engine: Engine, revision: str = "head") -> None:
             ) from None
     cfg = alembic_config()
     with engine.execution_options(**{WRITE_OPTION: True}).begin() as conn:
+        # one upgrader at a time: SQLite's BEGIN IMMEDIATE already serialises; on PostgreSQL a
+        # transaction-scoped advisory lock does. Alembic then reads the version under the lock.
+        if conn.dialect.name == "postgresql":
+            conn.exec_driver_sql("SELECT pg_advisory_xact_lock(%s)" % _PG_MIGRATION_LOCK)
         cfg.attributes["connection"] = conn
         command.upgrade(cfg, revision)
