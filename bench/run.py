@@ -221,7 +221,7 @@ def worker(op: str, size: int, url: str, workdir: Path) -> dict:
                 return out
             # the first memo in a process is what `vetting memo` costs (libraries loaded on first
             # use included); the second shows the warm cost
-            _, runs, out = _repeat(once, at_least=float("inf"), most=2)
+            _, runs, out = _repeat(once, at_least=float("inf"), most=2 if size < 10_000 else 1)
             seconds = runs[0]
             extra = {"kb": round(out.stat().st_size / 1024, 1), "warm_s": round(runs[-1], 3)}
     elif op == "tui-first":
@@ -304,11 +304,14 @@ def _tui(url: str, size: int, *, keys: bool):
                 text = str(getattr(status, "content", "") or getattr(status, "renderable", ""))
                 if "Could not read" in text:
                     raise RuntimeError(f"the interface could not load the catalogue: {text}")
-                return getattr(screen, "loaded", False) and screen.query_one("DataTable").row_count == len(screen.rows)
+                cap = getattr(screen, "MAX_TABLE_ROWS", None) or len(screen.rows)  # the table may hold the first N
+                return getattr(screen, "loaded", False) and (
+                    screen.query_one("DataTable").row_count == min(len(screen.shown), cap))
 
             await wait_until(pilot, filled)
             out["table_filled_s"] = time.perf_counter() - t0
             out["rows"] = len(screen.rows)
+            out["table_rows"] = screen.query_one("DataTable").row_count
             if keys and screen.rows:
                 table = screen.query_one("DataTable")
                 # filter keystrokes ("zep"), each until the table shows the filtered rows (the
@@ -425,7 +428,9 @@ def machine() -> str:
 def _fmt_s(t: float | None) -> str:
     if t is None:
         return "—"
-    return f"{t * 1000:.1f} ms" if t < 1 else f"{t:.2f} s"
+    if t < 0.01:
+        return f"{t * 1000:.2f} ms"
+    return f"{t * 1000:.0f} ms" if t < 1 else f"{t:.1f} s"
 
 
 def markdown(results: list[dict], sizes: list[int]) -> str:
@@ -454,6 +459,26 @@ def markdown(results: list[dict], sizes: list[int]) -> str:
     return "\n".join(lines)
 
 
+def table_from_logs(paths: list[str]) -> str:
+    """The markdown table from the lines this script printed (for runs split over several
+    invocations, e.g. `--sizes 100,1000` and then `--sizes 10000 --only ...`)."""
+    results = []
+    for path in paths:
+        for line in Path(path).read_text().splitlines():
+            parts = line.split(None, 2)
+            if len(parts) == 3 and parts[0] in ("sqlite", "postgresql") and parts[1] in ALL:
+                r = json.loads(parts[2])
+                if "seconds" in r or "error" in r:
+                    r.update(op=parts[1], backend=parts[0])
+                    results.append(r)
+            elif line.startswith("== "):
+                size = int(line.split()[1].replace(",", ""))
+            if results and "size" not in results[-1]:
+                results[-1]["size"] = size
+    sizes = sorted({r["size"] for r in results})
+    return markdown(results, sizes)
+
+
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description="vetting benchmark suite (see the module docstring)")
     ap.add_argument("--sizes", default=",".join(map(str, DEFAULT_SIZES)), help="instrument counts, comma-separated")
@@ -468,7 +493,12 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--size", type=int, help=argparse.SUPPRESS)
     ap.add_argument("--url", help=argparse.SUPPRESS)
     ap.add_argument("--workdir", help=argparse.SUPPRESS)
+    ap.add_argument("--table-from-logs", nargs="+", metavar="LOG", help="print the table from earlier runs' output")
     args = ap.parse_args(argv)
+
+    if args.table_from_logs:
+        print(table_from_logs(args.table_from_logs))
+        return 0
 
     if args.worker:
         print(json.dumps(worker(args.worker, args.size, args.url, Path(args.workdir))))
@@ -504,6 +534,9 @@ def main(argv: list[str] | None = None) -> int:
                     r["backend"] = backend
                     if op in ops:
                         results.append(r)
+                    if args.json:  # written as it goes, so a long run that is stopped keeps its figures
+                        Path(args.json).write_text(json.dumps({"machine": machine(), "sizes": sizes,
+                                                               "results": results}, indent=1))
                     shown = {k: v for k, v in r.items() if k not in ("op", "size", "backend", "runs")}
                     print(f"  {backend:10} {op:12} {json.dumps(shown)}", flush=True)
             # issue 8: ranking results identical on SQLite and PostgreSQL
