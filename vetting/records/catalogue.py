@@ -16,7 +16,9 @@ Nothing here writes to a database; `parse_catalogue` returns plain domain object
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
+import gc
 import math
 import os
 import re
@@ -616,6 +618,21 @@ def _declared_attribute_keys(root: _Node | None) -> set[str]:
     return out
 
 
+@contextlib.contextmanager
+def _gc_paused():
+    """Pause the cyclic garbage collector: reading builds millions of small objects with no
+    cycles, and repeated collections over the growing heap would more than double the time
+    (measured: 10,000 instruments 17.7 s -> 8.0 s CPU). Reference counting still frees
+    everything; the collector's previous state is restored afterwards."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
 def parse_catalogues(
     files: list[tuple[bytes | str, str]],
     *,
@@ -628,6 +645,14 @@ def parse_catalogues(
     problem. Raises CatalogueError with the problems of every file (capped), else returns one
     Catalogue per file.
     """
+    with _gc_paused():
+        return _parse_catalogues(files, known_attributes)
+
+
+def _parse_catalogues(
+    files: list[tuple[bytes | str, str]],
+    known_attributes: set[str] | frozenset[str],
+) -> list[d.Catalogue]:
     problems: list[Problem] = []
     trees: list[tuple[str, _Node | None] | None] = []
     for data, name in files:
@@ -825,16 +850,41 @@ def dump_catalogue(cat: d.Catalogue) -> str:
         doc["instruments"] = [_plain("instrument", i) for i in cat.instruments]
     if cat.jobs:
         doc["jobs"] = [_plain("job", j) for j in cat.jobs]
-    body = yaml.dump(
-        doc,
-        Dumper=_Dumper,
-        sort_keys=False,
-        allow_unicode=True,
-        default_flow_style=False,
-        width=100,
-        indent=2,
-    )
+    with _gc_paused():
+        body = yaml.serialize(
+            _node(doc),
+            Dumper=_Dumper,
+            allow_unicode=True,
+            width=100,
+            indent=2,
+        )
     return _HEADER + body
+
+
+def _node(value: Any) -> yaml.Node:
+    """Plain data -> a YAML node tree (block style), built directly rather than through
+    PyYAML's representer: three times faster on large catalogues. Every node is a new object,
+    so the serializer never writes anchors."""
+    if isinstance(value, dict):
+        return yaml.MappingNode(
+            _T + "map", [(yaml.ScalarNode(_T + "str", k), _node(v)) for k, v in value.items()], flow_style=False
+        )
+    if isinstance(value, list):
+        return yaml.SequenceNode(_T + "seq", [_node(v) for v in value], flow_style=False)
+    if isinstance(value, str):
+        return yaml.ScalarNode(_T + "str", value)
+    if isinstance(value, bool):
+        return yaml.ScalarNode(_T + "bool", "true" if value else "false")
+    if isinstance(value, int):
+        return yaml.ScalarNode(_T + "int", str(value))
+    if isinstance(value, float):
+        text = repr(value).lower()  # as PyYAML's own representer writes floats
+        if "." not in text and "e" in text:
+            text = text.replace("e", ".0e", 1)
+        return yaml.ScalarNode(_T + "float", text)
+    if isinstance(value, dt.date):
+        return yaml.ScalarNode(_T + "timestamp", value.isoformat())
+    raise TypeError(f"cannot write {type(value).__name__} to a catalogue")
 
 
 def write_catalogue(cat: d.Catalogue, path: str | os.PathLike[str]) -> None:
