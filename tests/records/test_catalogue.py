@@ -308,6 +308,8 @@ FIELD_CASES = [
      "instruments[0].title", "control character U+0007"),
     ("line-separator character", "    title: Plant mechanics, form 2", '    title: "Plant\\Lmechanics"', "Plant\\L",
      "instruments[0].title", "control character U+2028"),
+    ("next-line character (PyYAML would turn it into a space)", "    title: Plant mechanics, form 2",
+     '    title: "Plant\\Nmechanics"', "Plant\\N", "instruments[0].title", "control character U+0085"),
     ("duplicate YAML key", "    minutes: 30", "    minutes: 30\n    minutes: 35", "minutes: 35",
      "instruments[0].minutes", "given twice in the same place (first on line"),
 ]
