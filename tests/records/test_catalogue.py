@@ -575,3 +575,10 @@ def test_write_is_atomic_and_leaves_no_temporary_files(tmp_path):
         write_catalogue(bad, target)
     assert target.read_bytes() == before
     assert sorted(os.listdir(folder)) == ["out.yaml"]
+
+
+def test_windows_line_endings_keep_line_numbers():
+    text = VALID.replace("        value: 0.89", "        value: 1.89")
+    crlf = text.replace("\n", "\r\n").encode("utf-8")
+    assert_problem(crlf, line_of(text, "value: 1.89"), "instruments[0].reliability[0].value", "less than 1")
+    assert parse_catalogue(VALID.replace("\n", "\r\n"), NAME) == parse_catalogue(VALID, NAME)
