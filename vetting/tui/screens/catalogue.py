@@ -64,18 +64,18 @@ class Column:
 
 COLUMNS: tuple[Column, ...] = (
     Column("title", "Title", 0, lambda r: r.title, lambda r: r.title.lower(), right=False),
-    Column("minutes", "Min", 5, lambda r: _plain(r.summary.minutes), lambda r: r.summary.minutes),
-    Column("grade", "Read", 5, lambda r: _plain(r.summary.reading_grade), lambda r: r.summary.reading_grade),
+    Column("minutes", "Min", 4, lambda r: _plain(r.summary.minutes), lambda r: r.summary.minutes),
+    Column("grade", "Read", 4, lambda r: _plain(r.summary.reading_grade), lambda r: r.summary.reading_grade),
     Column(
-        "reliability", "Rel", 5, lambda r: _num(r.summary.best_reliability),
+        "reliability", "Rel", 4, lambda r: _num(r.summary.best_reliability),
         lambda r: r.summary.best_reliability, high_first=True,
     ),
     Column(
         "validity", "Valid", 5, lambda r: _num(r.summary.conservative_validity),
         lambda r: r.summary.conservative_validity, high_first=True,
     ),
-    Column("norm_age", "Norms", 6, lambda r: _age(r.summary.norm_age_years), lambda r: r.summary.norm_age_years),
-    Column("cost", "Cost", 10, lambda r: _cost(r.summary), lambda r: r.summary.cost_per_applicant),
+    Column("norm_age", "Norms", 5, lambda r: _age(r.summary.norm_age_years), lambda r: r.summary.norm_age_years),
+    Column("cost", "Cost", 9, lambda r: _cost(r.summary), lambda r: r.summary.cost_per_applicant),
     Column(
         "qualification", "User", 8, lambda r: r.summary.qualification or NO_VALUE,
         lambda r: _QUAL_ORDER.get(r.summary.qualification or "", None), right=False,
@@ -157,17 +157,24 @@ class CatalogueScreen(Screen):
 
     def _build_columns(self) -> None:
         table = self.query_one(DataTable)
-        fixed = sum(c.width + 2 for c in COLUMNS[1:])
+        fixed = sum(self._width(c) + 2 for c in COLUMNS[1:])
         title_width = max(TITLE_MIN, min(TITLE_MAX, self.app.size.width - fixed - 4))
+        if self.app.size.width > 120:
+            title_width = TITLE_MAX
         for col in COLUMNS:
             label = col.label + self._arrow(col.id)
-            table.add_column(label, key=col.id, width=col.width or title_width)
+            table.add_column(label, key=col.id, width=self._width(col) if col.width else title_width)
+
+    @staticmethod
+    def _width(col: Column) -> int:
+        """Room for the figures and for the label with its sort arrow."""
+        return max(col.width, len(col.label) + 1)
 
     def _arrow(self, column: str) -> str:
         if column != self.sort_column:
             return ""
         descending = _BY_ID[column].high_first != self.sort_reverse
-        return " ▼" if descending else " ▲"
+        return "▼" if descending else "▲"
 
     @work(thread=True, exclusive=True, group="catalogue-load")
     def load(self) -> None:

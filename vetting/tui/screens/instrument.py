@@ -100,8 +100,8 @@ class InstrumentEditor(EditorScreen):
 
         def describe() -> list[Any]:
             note = Static(
-                "Fields marked * are required. Lists are typed with commas. Measures: attribute:fit "
-                "(fit is primary or secondary). Attributes not yet known are added when you save.",
+                "* required · lists: a, b · measures: attribute:fit (primary or secondary) · "
+                "new attributes are added on saving",
                 classes="section-note",
             )
             texts = _texts(inst, DESCRIPTION) if inst else {}

@@ -55,10 +55,10 @@ class JobsScreen(Screen):
 
     def on_mount(self) -> None:
         table = self.query_one(DataTable)
-        table.add_column("Key", key="key")
-        table.add_column("Title", key="title")
-        table.add_column("Needs", key="needs")
-        table.add_column("Policy", key="policy")
+        title_width = max(20, min(70, self.app.size.width - (8 + 2) - (30 + 2) - 6))
+        table.add_column("Title", key="title", width=title_width)
+        table.add_column("Needs", key="needs", width=8)
+        table.add_column("Policy", key="policy", width=30)
         self.load()
 
     @work(thread=True, exclusive=True, group="jobs-load")
@@ -78,7 +78,7 @@ class JobsScreen(Screen):
         table = self.query_one(DataTable)
         table.clear()
         for job in self.jobs:
-            table.add_row(job.key, job.title, f"{len(job.requirements)} attr", policy_state(job.policy), key=job.key)
+            table.add_row(job.title, f"{len(job.requirements)} attr", policy_state(job.policy), key=job.key)
         current = self.app.current_job
         keys = [j.key for j in self.jobs]
         if current in keys:
@@ -91,7 +91,7 @@ class JobsScreen(Screen):
         if not self.jobs:
             self._status("No jobs yet. Press ctrl+n to create one.")
             return
-        self._status(f"Current job: {self.app.current_job} · F4 Compare, F5 Plan, F6 Gaps and F7 Memo use it.")
+        self._status(f"Current job: {self.app.current_job} (F4-F7 work on it)")
 
     @on(DataTable.RowHighlighted)
     def _highlighted(self, event: DataTable.RowHighlighted) -> None:
