@@ -170,3 +170,43 @@ async def test_table_holds_a_capped_number_of_rows_and_filter_reaches_all(seeded
         await pilot.press(*"tally")
         await pilot.pause(0.3)
         assert table.row_count == 1 and _titles(screen) == ["Tally Quick Numbers"]
+
+
+async def test_import_from_the_catalogue_screen(db_url, app_for, settle, tmp_path):
+    """A good file lands in one go; a bad one is refused whole with file, line and field."""
+    from vetting.records.catalogue import dump_catalogue
+    from vetting.records.domain import Catalogue
+    from vetting.tui.widgets.confirm import Notice
+
+    from .conftest import invented_catalogue
+
+    attributes, instruments, jobs = invented_catalogue()
+    good = tmp_path / "good.yaml"
+    good.write_text(dump_catalogue(Catalogue(attributes, instruments[:2], jobs)), encoding="utf-8")
+    bad = tmp_path / "bad.yaml"
+    text = dump_catalogue(Catalogue(attributes, instruments[2:], []))
+    bad.write_text(text.replace("minutes: 15", "minutes: -15"), encoding="utf-8")
+    bad_line = 1 + text.splitlines().index(next(l for l in text.splitlines() if "minutes: 15" in l))
+
+    app = app_for(db_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press("ctrl+g")
+        await settle(pilot)
+        await pilot.press(*str(bad), "enter")
+        await settle(pilot)
+        assert isinstance(app.screen, Notice)
+        assert "database is unchanged" in app.screen.message
+        assert f"bad.yaml:{bad_line}:" in app.screen.message and "minutes" in app.screen.message
+        await pilot.press("escape")
+        await settle(pilot)
+        assert screen.rows == []
+        await pilot.press("ctrl+g")
+        await settle(pilot)
+        await pilot.press(*str(good), "enter")
+        await settle(pilot)
+        await settle(pilot)
+        assert sorted(r.key for r in screen.rows) == ["ledger-scan", "tally-quick"]
+    with Store.open(db_url) as store:
+        assert store.job_keys() == ["claims-clerk"]

@@ -117,6 +117,18 @@ class Data:
         inst = store.instrument(key)
         return _row(inst, _summariser()(inst, self.as_of()), names)
 
+    def import_file(self, path: str, *, replace: bool = False) -> dict[str, int]:
+        """Check the whole catalogue file, then write it in one transaction (all or nothing).
+
+        Raises CatalogueError (every problem, with file, line and field), KeyConflict, or
+        OSError for a file that cannot be read; the database is then left as it was.
+        """
+        from vetting.records.catalogue import load_catalogue
+
+        store = self.store
+        cat = load_catalogue(path, known_attributes=store.attribute_keys())
+        return store.import_catalogue(cat, replace=replace, source=str(path))
+
     # -- single records ------------------------------------------------------------------------
 
     def instrument(self, key: str) -> Instrument:

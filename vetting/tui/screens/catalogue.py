@@ -118,6 +118,8 @@ class CatalogueScreen(Screen):
         Binding("ctrl+o", "next_sort", "Sort by", id="catalogue.sort", tooltip="Sort by the next column"),
         Binding("ctrl+r", "flip_sort", "Reverse", id="catalogue.reverse", tooltip="Reverse the sort order"),
         Binding("ctrl+l", "reload", "Reload", id="catalogue.reload", tooltip="Read the catalogue again"),
+        Binding("ctrl+g", "import_file", "Import", id="catalogue.import",
+                tooltip="Import a catalogue file (checked first; all or nothing)"),
         Binding("escape", "clear_filter", "Clear filter", show=False, id="catalogue.clear",
                 tooltip="Empty the filter box"),
         Binding("down", "to_table", "To table", show=False, id="catalogue.down", tooltip="Move into the table"),
@@ -333,6 +335,58 @@ class CatalogueScreen(Screen):
 
     def action_new_instrument(self) -> None:
         self.app.open_instrument(None)
+
+    # -- importing a catalogue file ---------------------------------------------------------
+
+    def action_import_file(self) -> None:
+        from vetting.tui.widgets.ask_path import AskPath
+
+        def chosen(path: str | None) -> None:
+            if path:
+                self.import_file(path)
+
+        self.app.push_screen(
+            AskPath("Import which catalogue file?",
+                    "The whole file is checked first; nothing is written unless every record is valid."),
+            chosen,
+        )
+
+    @work(thread=True, exclusive=True, group="catalogue-import")
+    def import_file(self, path: str) -> None:
+        from vetting.records.errors import CatalogueError, RecordsError
+
+        call = self.app.call_from_thread
+        call(self._import_status, f"importing {path}…")
+        try:
+            counts = self.app.data.import_file(path)
+        except CatalogueError as exc:
+            call(self._import_failed, path, [str(p) for p in exc.problems], exc.truncated)
+            return
+        except (RecordsError, OSError) as exc:
+            call(self._import_failed, path, [str(exc)], False)
+            return
+        call(self._imported, path, counts)
+
+    def _import_status(self, text: str) -> None:
+        self.query_one("#count", Static).update(text)
+
+    def _import_failed(self, path: str, problems: list[str], truncated: bool) -> None:
+        from vetting.tui.widgets.confirm import Notice
+
+        shown = problems[:12]
+        more = len(problems) - len(shown)
+        text = "\n".join(f"✗ {p}" for p in shown)
+        if more > 0 or truncated:
+            text += "\n… more problems not shown (fix these first)"
+        self._update_counts()
+        self.app.push_screen(
+            Notice(f"Nothing was imported from {path}; the database is unchanged.\n\n{text}")
+        )
+
+    def _imported(self, path: str, counts: dict[str, int]) -> None:
+        summary = ", ".join(f"{v} {k}" for k, v in counts.items() if v)
+        self.notify(f"Imported {summary or 'nothing new'} from {path}.", title="Import")
+        self.load()
 
     # -- after an edit -----------------------------------------------------------------------
 

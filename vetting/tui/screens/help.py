@@ -18,7 +18,8 @@ def screen_classes() -> list[tuple[str, type]]:
     from vetting.tui.screens.catalogue import CatalogueScreen
     from vetting.tui.screens.instrument import InstrumentEditor
     from vetting.tui.screens.job import JobEditor, JobsScreen
-    from vetting.tui.widgets.confirm import Confirm
+    from vetting.tui.widgets.ask_path import AskPath
+    from vetting.tui.widgets.confirm import Confirm, Notice
 
     found: list[tuple[str, type]] = [
         ("Everywhere", VettingApp),
@@ -32,6 +33,8 @@ def screen_classes() -> list[tuple[str, type]]:
         if cls is not None:
             found.append((name.title(), cls))
     found.append(("Questions", Confirm))
+    found.append(("Messages", Notice))
+    found.append(("File name", AskPath))
     found.append(("This list", HelpScreen))
     return found
 

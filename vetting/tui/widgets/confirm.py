@@ -51,3 +51,39 @@ class Confirm(ModalScreen[bool]):
 
     def action_answer(self, value: bool) -> None:
         self.dismiss(value)
+
+
+class Notice(ModalScreen[None]):
+    """A message to read and close (Enter, Escape or y)."""
+
+    DEFAULT_CSS = """
+    Notice { align: center middle; }
+    Notice > Vertical {
+        width: 90; max-width: 95%; height: auto; max-height: 90%;
+        border: thick $error; background: $surface; padding: 1 2;
+    }
+    Notice #message { width: 100%; margin-bottom: 1; }
+    Notice Horizontal { height: auto; align-horizontal: right; }
+    """
+
+    BINDINGS = [Binding("escape,y", "close", "Close", id="notice.close")]
+
+    def __init__(self, message: str) -> None:
+        super().__init__()
+        self.message = message
+
+    def compose(self) -> ComposeResult:
+        with Vertical():
+            yield Static(self.message, id="message", markup=False)
+            with Horizontal():
+                yield Button("Close", id="close", variant="primary")
+
+    def on_mount(self) -> None:
+        self.query_one(Button).focus()
+
+    def on_button_pressed(self, event: Button.Pressed) -> None:
+        event.stop()
+        self.dismiss(None)
+
+    def action_close(self) -> None:
+        self.dismiss(None)
