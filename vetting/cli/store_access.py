@@ -12,12 +12,14 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from contextlib import contextmanager
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from vetting.cli.common import EXIT_BAD_INPUT, EXIT_FAILURE, CommandError
 from vetting.records.errors import CatalogueError, ConcurrentEdit, KeyConflict, NotFound, RecordsError
 from vetting.records.location import resolve_url
-from vetting.records.store import Store
+
+if TYPE_CHECKING:  # imported inside open_store so `vetting --help` need not load SQLAlchemy
+    from vetting.records.store import Store
 
 BAD_INPUT_ERRORS = (NotFound, KeyConflict, CatalogueError, ConcurrentEdit)
 
@@ -42,6 +44,8 @@ def store_url(args: Any) -> str:
 @contextmanager
 def open_store(args: Any, *, url: str | None = None) -> Iterator[Store]:
     """Open the store for `args.db` (or `url`), close it afterwards, translate records errors."""
+    from vetting.records.store import Store
+
     with records_errors():
         store = Store.open(url or store_url(args))
         try:

@@ -28,8 +28,19 @@ import math
 import sys
 from typing import Any, Callable
 
-from vetting import psychometrics as psy
 from vetting.cli.common import EXIT_OK, BadInput, print_json
+
+
+class _LazyPsychometrics:
+    """vetting.psychometrics, imported on first use so `vetting --help` need not load scipy."""
+
+    def __getattr__(self, name: str) -> Any:
+        from vetting import psychometrics
+
+        return getattr(psychometrics, name)
+
+
+psy = _LazyPsychometrics()
 
 CAUTION = (
     "Caution: a figure to support, not replace, professional judgement; model-based figures rest "

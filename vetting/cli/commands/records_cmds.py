@@ -19,7 +19,6 @@ from typing import Any
 from vetting.cli.common import EXIT_BAD_INPUT, EXIT_OK, BadInput, CommandError, print_json
 from vetting.cli.store_access import open_store, records_errors, store_url
 from vetting.records.domain import Instrument, Job
-from vetting.records.engine import sqlite_path
 from vetting.records.errors import DatabaseUnavailable, RecordsError
 from vetting.records.results import AuditEvent
 
@@ -79,6 +78,8 @@ def cmd_init(args: argparse.Namespace) -> int:
 
 
 def _where(url: str) -> str:
+    from vetting.records.engine import sqlite_path  # not at module level: keeps --help light
+
     path = sqlite_path(url)
     if path is not None:
         return str(path.resolve())
