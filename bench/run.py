@@ -200,6 +200,9 @@ def worker(op: str, size: int, url: str, workdir: Path) -> dict:
         with Store.open(url, user="bench") as store:
             job = store.job(_job_key(store))
             instruments = store.instruments()
+        if not instruments:
+            return {"op": op, "size": size, "seconds": None, "runs": [], "peak_mb": round(_peak_mb(), 1),
+                    "note": "no instrument to plan for"}
         ranking = rank(job, instruments, draws=1, seed=0, as_of=AS_OF)
         top = next(i for i in instruments if i.key == (ranking.top or ranking.results[0]).instrument)
         ratios = np.linspace(0.01, 0.99, 99)
@@ -364,9 +367,9 @@ def _tui(url: str, size: int, *, keys: bool):
         return out
 
     out = asyncio.run(main())
-    # tui-keys: the slowest warm interactive action
-    seconds = out["table_filled_s"] if not keys else max(
-        out.get("filter_key_ms", 0), out.get("cursor_move_ms", 0), out.get("open_editor_ms", 0)) / 1000
+    # tui-keys: the slowest warm interactive action (none without instruments)
+    seconds = out["table_filled_s"] if not keys else (max(
+        out.get("filter_key_ms", 0), out.get("cursor_move_ms", 0), out.get("open_editor_ms", 0)) / 1000 or None)
     return seconds, [seconds], {k: round(v, 3) if isinstance(v, float) else v for k, v in out.items()}
 
 
@@ -454,7 +457,8 @@ def markdown(results: list[dict], sizes: list[int]) -> str:
                     cells.append("failed")
                 else:
                     cells.append(f"{_fmt_s(r['seconds'])} ({r.get('cli_peak_mb', r['peak_mb']):.0f} MB)")
-                    pts.append((n, r["seconds"]))
+                    if r["seconds"] is not None:
+                        pts.append((n, r["seconds"]))
             b = _fit_exponent(pts)
             lines.append(f"| {op} | " + " | ".join(cells) + f" | {'—' if b is None else f'{b:.2f}'} |")
         lines.append("")
