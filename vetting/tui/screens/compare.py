@@ -222,6 +222,7 @@ def policy_line(ranking) -> Text:
                 style="bold green" if ranking.locked_before_first_ranking else "bold red")
     text.append(f" · {len(ranking.eligible)} of {len(ranking.results)} eligible")
     text.append(f" · {ranking.robustness.draws:,} draws, seed {ranking.robustness.seed}")
+    text.append(" · gates: ✓ pass, ✓! pass with evidence missing, ✗ fail", style="dim")
     return text
 
 

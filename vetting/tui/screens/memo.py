@@ -75,6 +75,8 @@ class MemoScreen(Screen):
         yield NavBar("memo")
         yield Static(f"Memo · {self.job_key or 'no job'}", id="heading", classes="title-bar")
         yield Static("", id="state", classes="status-line")
+        yield Static("Planned use in the memo: the job's own selection ratio (hires ÷ applicants); "
+                     "cuts tried on Plan are not carried over.", id="plan-note", classes="status-line")
         with Horizontal(id="working"):
             yield Static("", id="working-text")
             yield ProgressBar(total=3, show_eta=False, id="progress")

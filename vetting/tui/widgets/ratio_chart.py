@@ -77,7 +77,7 @@ def draw(
     legend = Text()
     legend.append(f"{SUCCESS} success" if success is not None else f"{SUCCESS} (no success rate)", style="green")
     legend.append(" ")
-    legend.append(f"{IMPACT} impact ratio" if impact is not None else f"{IMPACT} (no subgroup data)", style="magenta")
+    legend.append(f"{IMPACT} impact" if impact is not None else f"{IMPACT} (no subgroup data)", style="magenta")
     legend.append(" ┈.80 │now", style="dim")
     text.append_text(legend)
     text.append("\n")
