@@ -24,7 +24,7 @@ from vetting.records.synthetic import generate_catalogue
 from ._support import assert_clean_failure, run_vetting, worker
 
 SEED = 17
-COUNT = 400
+COUNT = 2000  # more than the writer can save while the backup runs; it is stopped after it
 
 
 def _strip(inst):
