@@ -419,6 +419,7 @@ class Store:
 
     # -- jobs and policies -----------------------------------------------------
 
+    @instrument_io.gc_paused
     def jobs(self) -> list[Job]:
         """Every job, each with its current (newest) policy version."""
         with self._read() as s:
@@ -736,6 +737,7 @@ class Store:
         if problems:
             raise CatalogueError(problems)
 
+    @instrument_io.gc_paused
     def export_catalogue(
         self, *, jobs: list[str] | None = None, instruments: list[str] | None = None
     ) -> Catalogue:
