@@ -383,3 +383,16 @@ async def test_final_memo_is_recorded_as_a_decision(seeded_url, app_for, settle,
         check = verify(store, str(tmp_path / "final.md"))
         assert check.matches and check.decision is not None
 
+
+
+async def test_no_color_keeps_pass_and_fail_readable(seeded_url, app_for, settle, monkeypatch):
+    # NO_COLOR (no-color.org): colour is dropped, and the symbols and words still tell pass from fail
+    monkeypatch.setenv("NO_COLOR", "1")
+    app = app_for(seeded_url)
+    async with app.run_test(size=(120, 30)) as pilot:
+        screen = await _open(pilot, settle, "compare")
+        assert app.no_color
+        await _move_to(pilot, screen, "calm-index", "gate:job_relatedness")
+        assert "✗ FAIL" in _static(screen, "#focus")
+        svg = app.export_screenshot()
+        assert "✗" in svg and "✓" in svg

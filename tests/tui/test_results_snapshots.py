@@ -61,3 +61,19 @@ def test_gaps(snap_compare, seeded_url, app_for, size):  # noqa: F811
 @pytest.mark.parametrize("size", SIZES)
 def test_memo(snap_compare, seeded_url, app_for, size):  # noqa: F811
     assert snap_compare(app_for(seeded_url), terminal_size=size, run_before=_opener("memo"))
+
+
+def _light(name: str, *keys: str):
+    inner = _opener(name, *keys)
+
+    async def run_before(pilot) -> None:
+        await pilot.press("f8")  # the light theme
+        await inner(pilot)
+
+    return run_before
+
+
+@pytest.mark.parametrize("name", ["compare", "plan"])
+def test_light_theme(snap_compare, seeded_url, app_for, name):  # noqa: F811
+    # pass/fail stays readable as symbols and words in the light theme too
+    assert snap_compare(app_for(seeded_url), terminal_size=(80, 24), run_before=_light(name))
