@@ -195,3 +195,15 @@ def test_many_stores_opening_a_new_database_at_once_all_succeed(db_url):
     assert errors == []
     with Store.open(db_url) as s:
         assert engines.current_revision(s._engine) == engines.head_revision()
+
+
+def test_an_old_backup_restores_into_a_new_database_and_stays_untouched(db_url, tmp_path):
+    """`restore` upgrades a temporary copy of an older backup, never the backup file itself."""
+    backup = tmp_path / "old-backup.db"
+    shutil.copyfile(STORED_REV1, backup)
+    before = backup.read_bytes()
+    with Store.open(db_url) as store:
+        copied = store.restore(backup)
+        assert copied["instrument"] == 1 and copied["norm_point"] == 2
+        _assert_rev1_records(store)
+    assert backup.read_bytes() == before
