@@ -396,3 +396,21 @@ async def test_no_color_keeps_pass_and_fail_readable(seeded_url, app_for, settle
         assert "✗ FAIL" in _static(screen, "#focus")
         svg = app.export_screenshot()
         assert "✗" in svg and "✓" in svg
+
+
+async def test_compare_next_job_ranks_that_job(seeded_url, app_for, settle):
+    from vetting.records.domain import Job, Requirement
+
+    with Store.open(seeded_url) as store:
+        store.save_job(Job(key="steady-role", title="Steady role", requirements=[Requirement("steadiness", 5, True)]))
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        screen = await _open(pilot, settle, "compare")
+        assert screen.ranking.job == JOB
+        await pilot.press("j")
+        await settle(pilot, rounds=5)
+        assert screen.ranking.job == "steady-role" and app.current_job == "steady-role"
+        # only calm-index measures steadiness: the others fail job relatedness (UGESP 1978)
+        by_key = {r.instrument: r for r in screen.ranking.results}
+        assert by_key["calm-index"].gates["job_relatedness"].passed
+        assert not by_key["tally-quick"].gates["job_relatedness"].passed

@@ -236,6 +236,7 @@ class CompareScreen(Screen):
     BINDINGS = [
         Binding("space", "choose", "Choose", id="compare.choose",
                 tooltip="Choose the highlighted instrument for Plan and Memo (Enter too)"),
+        Binding("j", "next_job", "Next job", id="compare.job", tooltip="Rank the next job (by title)"),
         Binding("r", "rank_again", "Rank again", id="compare.rank", tooltip="Read the records and rank again"),
         Binding("d", "more_draws", "Draws", id="compare.draws",
                 tooltip=f"Switch robustness draws between {DRAWS[0]:,} and {DRAWS[1]:,}"),
@@ -402,6 +403,34 @@ class CompareScreen(Screen):
         remember_choice(self.app, self.job_key, result.instrument)
         self.notify(f"{result.title} is chosen for Plan (F5) and Memo (F7).", title="Chosen")
         self._fill()
+
+    def action_next_job(self) -> None:
+        self._next_job()
+
+    @work(thread=True, exclusive=True, group="compare-jobs")
+    def _next_job(self) -> None:
+        try:
+            jobs = sorted(store_of(self, self.store_url).jobs(), key=lambda j: (j.title.lower(), j.key))
+        except Exception as exc:
+            self.app.call_from_thread(self.notify, str(exc), severity="error")
+            return
+        keys = [j.key for j in jobs]
+        if not keys:
+            return
+        following = keys[(keys.index(self.job_key) + 1) % len(keys)] if self.job_key in keys else keys[0]
+        self.app.call_from_thread(self._switch_job, following)
+
+    def _switch_job(self, job_key: str) -> None:
+        if job_key == self.job_key:
+            self.notify("This is the only job on record.")
+            return
+        self.job_key = job_key
+        self.app.current_job = job_key
+        self.ranking = None
+        self.query_one(DataTable).clear(columns=True)
+        self.query_one("#heading", Static).update(f"Compare · {job_key}")
+        self._show_chosen()
+        self.rank()
 
     def action_rank_again(self) -> None:
         self.rank()
