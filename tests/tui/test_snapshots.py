@@ -112,3 +112,31 @@ def test_keys(snap_compare, db_url, app_for, size):
         await _settle(pilot)
 
     assert snap_compare(app_for(db_url), terminal_size=size, run_before=run_before)
+
+
+def test_catalogue_light_theme(snap_compare, seeded_url, app_for):
+    async def run_before(pilot):
+        await _settle(pilot)
+        await pilot.press("f8")
+        await _settle(pilot)
+
+    assert snap_compare(app_for(seeded_url), terminal_size=(80, 24), run_before=run_before)
+
+
+def test_broken_rule_without_colour(snap_compare, seeded_url, app_for, monkeypatch):
+    """With NO_COLOR set the failed rule still reads as failed: the ✗ and the words carry it."""
+    monkeypatch.setenv("NO_COLOR", "1")
+    app = app_for(seeded_url)
+    assert app.no_color
+
+    async def run_before(pilot):
+        await _settle(pilot)
+        pilot.app.open_instrument("tally-quick")
+        await _settle(pilot)
+        field = pilot.app.screen.query_one(".description", RecordBlock).fields["minutes"]
+        field.input.focus()
+        field.input.value = "0"
+        await _settle(pilot)
+        assert "✗ minutes must be a number greater than 0" in str(field.query_one(".field-message").render())
+
+    assert snap_compare(app, terminal_size=(80, 24), run_before=run_before)

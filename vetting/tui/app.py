@@ -138,9 +138,10 @@ class VettingApp(App[int]):
         self.data.close()
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
-        # The ActionsProvider lists our own actions; keep only Textual's non-duplicated extras.
+        # Our own Quit asks before dropping unsaved changes and our own Keys screen lists every
+        # key, so Textual's versions of those two are left out; its other extras stay.
         for command in super().get_system_commands(screen):
-            if command.title.lower() in {"quit", "keys", "theme"}:
+            if command.title.lower() in {"quit", "keys"}:
                 continue
             yield command
 
