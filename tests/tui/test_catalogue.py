@@ -210,3 +210,29 @@ async def test_import_from_the_catalogue_screen(db_url, app_for, settle, tmp_pat
         assert sorted(r.key for r in screen.rows) == ["ledger-scan", "tally-quick"]
     with Store.open(db_url) as store:
         assert store.job_keys() == ["claims-clerk"]
+
+
+async def test_delete_asks_and_removes_the_instrument(seeded_url, app_for, settle):
+    from vetting.tui.widgets.confirm import Confirm
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press(*"calm", "enter")
+        await pilot.pause(0.3)
+        await pilot.press("ctrl+y")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm) and "calm-index" in app.screen.question
+        await pilot.press("n")
+        await settle(pilot)
+        assert "calm-index" in [r.key for r in screen.rows]
+        await pilot.press("ctrl+y")
+        await settle(pilot)
+        await pilot.press("y")
+        await settle(pilot)
+        assert "calm-index" not in [r.key for r in screen.rows]
+    with Store.open(seeded_url) as store:
+        assert sorted(store.instrument_keys()) == ["ledger-scan", "tally-quick"]
+        # the audit trail keeps what was deleted
+        assert any(e.action == "delete" for e in store.audit_events(instrument="calm-index"))

@@ -165,3 +165,19 @@ async def test_job_editor_asks_before_leaving(seeded_url, app_for, settle):
         assert app.screen.__class__.__name__ == "CatalogueScreen"
     with Store.open(seeded_url) as store:
         assert store.job("claims-clerk").title == "Claims clerk"
+
+
+async def test_delete_job_asks_first(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        await pilot.press("f3")
+        await settle(pilot)
+        await pilot.press("ctrl+y")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("y")
+        await settle(pilot)
+        assert app.screen.jobs == []
+    with Store.open(seeded_url) as store:
+        assert store.job_keys() == []

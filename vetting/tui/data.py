@@ -140,6 +140,9 @@ class Data:
     def delete_instrument(self, key: str, row_version: int | None) -> None:
         self.store.delete_instrument(key, row_version=row_version)
 
+    def delete_job(self, key: str) -> None:
+        self.store.delete_job(key)
+
     def attributes(self) -> list[Attribute]:
         return self.store.attributes()
 

@@ -117,7 +117,9 @@ class CatalogueScreen(Screen):
         Binding("enter", "open_selected", "Open", id="catalogue.open", tooltip="Edit the highlighted instrument"),
         Binding("ctrl+o", "next_sort", "Sort by", id="catalogue.sort", tooltip="Sort by the next column"),
         Binding("ctrl+r", "flip_sort", "Reverse", id="catalogue.reverse", tooltip="Reverse the sort order"),
-        Binding("ctrl+l", "reload", "Reload", id="catalogue.reload", tooltip="Read the catalogue again"),
+        Binding("ctrl+l", "reload", "Reload", show=False, id="catalogue.reload", tooltip="Read the catalogue again"),
+        Binding("ctrl+y", "delete_selected", "Delete", id="catalogue.delete",
+                tooltip="Delete the highlighted instrument (asks first; kept in the audit trail)"),
         Binding("ctrl+g", "import_file", "Import", id="catalogue.import",
                 tooltip="Import a catalogue file (checked first; all or nothing)"),
         Binding("escape", "clear_filter", "Clear filter", show=False, id="catalogue.clear",
@@ -335,6 +337,37 @@ class CatalogueScreen(Screen):
 
     def action_new_instrument(self) -> None:
         self.app.open_instrument(None)
+
+    # -- deleting ----------------------------------------------------------------------------
+
+    def action_delete_selected(self) -> None:
+        key = self.selected_key()
+        if key is None:
+            self.notify("No instrument is highlighted.", severity="warning")
+            return
+        from vetting.tui.widgets.confirm import Confirm
+
+        title = next((r.title for r in self.rows if r.key == key), key)
+        question = (f"Delete instrument {key} ({title}) and all its evidence?\n"
+                    "The audit trail keeps a copy of what was deleted.")
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self._delete(key)
+
+        self.app.push_screen(Confirm(question, yes="Delete (y)", no="Keep (n)"), answered)
+
+    @work(thread=True, group="catalogue-delete")
+    def _delete(self, key: str) -> None:
+        from vetting.records.errors import RecordsError
+
+        try:
+            self.app.data.delete_instrument(key, None)
+        except RecordsError as exc:
+            self.app.call_from_thread(self.notify, str(exc), title="Not deleted", severity="error")
+            return
+        self.app.call_from_thread(self.record_deleted, key)
+        self.app.call_from_thread(self.notify, f"Deleted {key}.")
 
     # -- importing a catalogue file ---------------------------------------------------------
 

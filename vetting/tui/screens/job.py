@@ -40,6 +40,8 @@ class JobsScreen(Screen):
         Binding("ctrl+n", "new_job", "New job", id="jobs.new", tooltip="Create a job profile"),
         Binding("enter", "open_job", "Edit", id="jobs.open", tooltip="Edit the highlighted job"),
         Binding("ctrl+l", "reload", "Reload", id="jobs.reload", tooltip="Read the jobs again"),
+        Binding("ctrl+y", "delete_job", "Delete", id="jobs.delete",
+                tooltip="Delete the highlighted job (asks first; kept in the audit trail)"),
     ]
 
     def __init__(self) -> None:
@@ -113,6 +115,35 @@ class JobsScreen(Screen):
 
     def action_reload(self) -> None:
         self.load()
+
+    def action_delete_job(self) -> None:
+        key = self.app.current_job
+        if not key or key not in {j.key for j in self.jobs}:
+            self.notify("No job is highlighted.", severity="warning")
+            return
+        from vetting.tui.widgets.confirm import Confirm
+
+        def answered(yes: bool | None) -> None:
+            if yes:
+                self._delete(key)
+
+        self.app.push_screen(
+            Confirm(f"Delete job {key} with its requirements and policy versions?\n"
+                    "The audit trail keeps a copy of what was deleted.", yes="Delete (y)", no="Keep (n)"),
+            answered,
+        )
+
+    @work(thread=True, group="jobs-delete")
+    def _delete(self, key: str) -> None:
+        from vetting.records.errors import RecordsError
+
+        try:
+            self.app.data.delete_job(key)
+        except RecordsError as exc:
+            self.app.call_from_thread(self.notify, str(exc), title="Not deleted", severity="error")
+            return
+        self.app.current_job = None
+        self.app.call_from_thread(self.load)
 
     def record_saved(self, key: str) -> None:
         self.app.current_job = key
