@@ -275,3 +275,13 @@ async def test_enum_fields_suggest_allowed_values(db_url, app_for, settle):
         await pilot.pause()
         assert field.text == "licensed" and field.error is None
         assert isinstance(field.input, Input)
+
+
+async def test_enter_moves_to_the_next_field(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        editor = await _open_new(pilot, settle)
+        await pilot.press(*"a-key", "enter", *"A title")
+        await pilot.pause()
+        assert _field(editor, ".description", "key").text == "a-key"
+        assert _field(editor, ".description", "title").text == "A title"

@@ -211,7 +211,7 @@ class VettingApp(App[int]):
             return None
         job = kwargs.get("job_key", self.current_job)
         if job is None:
-            self.notify("Choose a job first: F3 Jobs, then Enter on a job.", title=name.title(), severity="warning")
+            self.notify("Choose a job first: F3 Jobs, highlight the job, then this key again.", title=name.title(), severity="warning")
             return None
         screen = cls(self.url, job)
         screen.screen_name = name  # type: ignore[attr-defined]

@@ -254,6 +254,11 @@ class RuleField(Widget):
         self.revealed = True
         self.show()
 
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        """Enter moves on to the next field, as in most forms."""
+        event.stop()
+        self.screen.focus_next()
+
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
         if event.value != self.initial:
