@@ -130,7 +130,7 @@ class CatalogueScreen(Screen):
     DEBOUNCE_SECONDS = 0.08
     #: the table holds at most this many rows (the best by the current sort); typing narrows
     #: the list. Sorting and filtering always work on every instrument, in memory.
-    MAX_TABLE_ROWS = 400
+    MAX_TABLE_ROWS = 100
 
     def __init__(self) -> None:
         super().__init__()
@@ -142,6 +142,8 @@ class CatalogueScreen(Screen):
         self._filter_timer = None
         self._ordered: list[CatalogueRow] = []
         self._keys: list[str] = []
+        #: True when row contents changed (a save or reload) so the table must be redrawn
+        self._stale = True
 
     def compose(self) -> ComposeResult:
         yield NavBar("catalogue")
@@ -205,6 +207,7 @@ class CatalogueScreen(Screen):
 
     def _loaded(self, rows: list[CatalogueRow]) -> None:
         self.rows = rows
+        self._stale = True
         self.loaded = True
         self._resort()
         self._apply_filter()
@@ -231,6 +234,10 @@ class CatalogueScreen(Screen):
         keep = self._keys[table.cursor_row] if 0 <= table.cursor_row < len(self._keys) else None
         self.shown = shown
         visible = shown[: self.MAX_TABLE_ROWS]
+        if [r.key for r in visible] == self._keys and not self._stale:
+            self._update_counts()  # same rows in the same order: nothing to redraw
+            return
+        self._stale = False
         table.clear()
         # plain Text cells: no markup parsing of titles typed by people
         table.add_rows([Text(c.cell(r), no_wrap=True, justify="right" if c.right else "left") for c in COLUMNS]
@@ -438,6 +445,7 @@ class CatalogueScreen(Screen):
 
     def _replace_row(self, row: CatalogueRow) -> None:
         self.rows = [r for r in self.rows if r.key != row.key] + [row]
+        self._stale = True
         self._resort()
         self._apply_filter()
         if row.key in self._keys:
