@@ -142,8 +142,13 @@ class JobsScreen(Screen):
         except RecordsError as exc:
             self.app.call_from_thread(self.notify, str(exc), title="Not deleted", severity="error")
             return
-        self.app.current_job = None
-        self.app.call_from_thread(self.load)
+        self.app.call_from_thread(self._deleted, key)
+
+    def _deleted(self, key: str) -> None:
+        if self.app.current_job == key:
+            self.app.current_job = None
+        self.notify(f"Deleted job {key}.")
+        self.load()
 
     def record_saved(self, key: str) -> None:
         self.app.current_job = key
