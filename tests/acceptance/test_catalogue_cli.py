@@ -279,11 +279,16 @@ def test_init_vetting_db_and_default_location(tmp_path):
     assert any(p.suffix in {".sqlite", ".db", ".sqlite3"} for p in data_home.rglob("*")), list(data_home.rglob("*"))
 
 
-def test_demo_no_open_uses_its_own_database(tmp_path):
+def test_demo_no_open_uses_its_own_database(tmp_path, capsys):
     home = tmp_path / "home"
     main_db = tmp_path / "main.sqlite"
     res = run_cli(["demo", "--no-open"], home, VETTING_DB=sqlite_url(main_db))
     assert res.code == 0, res.err
+    # The demo's own database (under the user's data directory) holds the whole demo.
+    demo_files = [p for p in (home / ".local" / "share").rglob("*") if p.is_file() and p.suffix in {".db", ".sqlite"}]
+    assert len(demo_files) == 1, demo_files
+    listed = run_inproc(["list", "instruments", "--json"], capsys, db=sqlite_url(demo_files[0])).json()
+    assert {i["key"] for i in listed} == set(_records(DEMO.read_text(encoding="utf-8"))["instruments"])
     # The user's main database is not touched (not even created with records).
     if main_db.exists():
         res = run_cli(["list", "instruments", "--json"], home, db=sqlite_url(main_db))
