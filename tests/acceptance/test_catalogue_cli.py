@@ -484,3 +484,22 @@ def test_reimport_refused_without_replace(tmp_path, capsys):
     last = events[-1] if events[-1]["action"] != "create" else events[0]
     assert last["action"] != "create"
     assert last["before"]["minutes"] == 20 and last["after"]["minutes"] == 25
+
+
+def test_several_files_are_one_transaction(tmp_path, capsys):
+    db = sqlite_url(tmp_path / "multi.sqlite")
+    first = tmp_path / "first.yaml"
+    second = tmp_path / "second.yaml"
+    first.write_text("format: 1\n" + ATTR + "instruments:\n" + _inst(n=1), encoding="utf-8")
+    # The second file uses the attribute declared in the first, and has one bad field.
+    second.write_text("format: 1\njobs:\n" + GOOD_JOB.format(n=1) + "    base_rate: 2\n", encoding="utf-8")
+    res = run_inproc(["import", first, second], capsys, db=db)
+    assert res.code == 2
+    assert any(ln.startswith(f"{second}:") and "base_rate" in ln for ln in res.err.splitlines()), res.err
+    assert not any(ln.startswith(f"{first}:") for ln in res.err.splitlines())
+    assert run_inproc(["list", "instruments", "--json"], capsys, db=db).json() == []
+    second.write_text("format: 1\njobs:\n" + GOOD_JOB.format(n=1), encoding="utf-8")
+    res = run_inproc(["import", first, second], capsys, db=db)
+    assert res.code == 0, res.err
+    assert [i["key"] for i in run_inproc(["list", "instruments", "--json"], capsys, db=db).json()] == ["quill-1"]
+    assert [j["key"] for j in run_inproc(["list", "jobs", "--json"], capsys, db=db).json()] == ["ferry-hand-1"]
