@@ -169,10 +169,8 @@ def gather(
 
     gaps = {i.key: gap_report(i, job=job, policy=job.policy, as_of=as_of) for i in instruments}
 
-    audit = list(store.audit_events(job=job_key))
-    for inst in instruments:
-        audit += store.audit_events(instrument=inst.key)
-    audit.sort(key=lambda e: e.id)
+    # the audit events of every record used, in one batched read (oldest first)
+    audit = list(store.audit_events_for(jobs=[job_key], instruments=[i.key for i in instruments]))
 
     fp = fpm.compute(job, job.policy, instruments)
     return MemoData(

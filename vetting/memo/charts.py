@@ -1,4 +1,5 @@
-"""Charts for the memo, drawn with matplotlib (Agg backend, imported only when a chart is drawn).
+"""Charts for the memo, drawn with matplotlib's object API (Figure and the Agg canvas, no pyplot;
+imported only when a chart is drawn).
 
 HTML gets inline SVG (text kept as text, no outside references); Word gets PNG. The numbers
 plotted all come from the appraisal engine through the chart objects in document.py; the only
@@ -18,13 +19,27 @@ _SECOND = "#b5542d"
 _BAND = "#f2c14e"
 
 
-def _plt():
+#: Look of every chart; applied while the figure is drawn AND while it is saved (the SVG writer
+#: reads svg.fonttype and svg.hashsalt at save time).
+_STYLE = {
+    "font.size": 9,
+    "axes.edgecolor": _INK,
+    "axes.labelcolor": _INK,
+    "xtick.color": _INK,
+    "ytick.color": _INK,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "svg.fonttype": "none",
+    "svg.hashsalt": "vetting-memo",
+}
+
+
+def _mpl():
+    """matplotlib's object API only (Figure + the Agg canvas): no pyplot, no global figure
+    manager, no interactive backend machinery to load."""
     import matplotlib
 
-    matplotlib.use("Agg", force=True)
-    import matplotlib.pyplot as plt
-
-    return plt
+    return matplotlib
 
 
 def _safe(text: str) -> str:
@@ -33,29 +48,26 @@ def _safe(text: str) -> str:
 
 
 def _draw(chart: Chart):
-    plt = _plt()
-    with plt.rc_context(
-        {
-            "font.size": 9,
-            "axes.edgecolor": _INK,
-            "axes.labelcolor": _INK,
-            "xtick.color": _INK,
-            "ytick.color": _INK,
-            "axes.spines.top": False,
-            "axes.spines.right": False,
-            "svg.fonttype": "none",
-            "svg.hashsalt": "vetting-memo",
-        }
-    ):
-        fig, ax = plt.subplots(figsize=(6.4, 3.3), dpi=100)
-        if isinstance(chart, SweepChart):
-            _draw_sweep(ax, chart)
-        elif isinstance(chart, DistributionChart):
-            _draw_distribution(ax, chart)
-        else:  # pragma: no cover - the model has only these two
-            raise TypeError(f"unknown chart {type(chart).__name__}")
-        fig.tight_layout()
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(6.4, 3.3), dpi=100)
+    FigureCanvasAgg(fig)
+    ax = fig.add_subplot()
+    if isinstance(chart, SweepChart):
+        _draw_sweep(ax, chart)
+    elif isinstance(chart, DistributionChart):
+        _draw_distribution(ax, chart)
+    else:  # pragma: no cover - the model has only these two
+        raise TypeError(f"unknown chart {type(chart).__name__}")
+    fig.tight_layout()
     return fig
+
+
+def _save(chart: Chart, buf, **kwargs) -> None:
+    with _mpl().rc_context(_STYLE):
+        fig = _draw(chart)
+        fig.savefig(buf, **kwargs)
 
 
 def _draw_sweep(ax, chart: SweepChart) -> None:
@@ -86,12 +98,13 @@ def _draw_sweep(ax, chart: SweepChart) -> None:
 
 def _draw_distribution(ax, chart: DistributionChart) -> None:
     import numpy as np
-    from scipy.stats import norm
 
     lo = min(chart.mean - 3.5 * chart.sd, chart.band_low)
     hi = max(chart.mean + 3.5 * chart.sd, chart.band_high)
     xs = np.linspace(lo, hi, 300)
-    ys = norm.pdf(xs, loc=chart.mean, scale=chart.sd)
+    # only the shape of the normal curve is drawn (the y axis has no scale): exp(-z²/2)
+    z = (xs - chart.mean) / chart.sd
+    ys = np.exp(-0.5 * z * z)
     ax.plot(xs, ys, color=_ACCENT, lw=1.4, label=_safe(f"Norm group: {chart.norm_label}"))
     above = xs >= chart.cut_raw
     ax.fill_between(xs[above], ys[above], color=_ACCENT, alpha=0.15, lw=0, label="Scores at or above the cut")
@@ -110,13 +123,8 @@ def to_svg(chart: Chart, id_prefix: str = "") -> str:
 
     id_prefix is put before every id (and every reference to one), so that several charts in
     one HTML page do not share ids."""
-    plt = _plt()
-    fig = _draw(chart)
     buf = io.StringIO()
-    try:
-        fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
-    finally:
-        plt.close(fig)
+    _save(chart, buf, format="svg", metadata={"Date": None, "Creator": None})
     text = buf.getvalue()
     text = text[text.index("<svg") :]
     # drop the RDF metadata block: it only names vocabularies by URL and adds nothing to read
@@ -134,11 +142,6 @@ def to_svg(chart: Chart, id_prefix: str = "") -> str:
 
 
 def to_png(chart: Chart, dpi: int = 200) -> bytes:
-    plt = _plt()
-    fig = _draw(chart)
     buf = io.BytesIO()
-    try:
-        fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
-    finally:
-        plt.close(fig)
+    _save(chart, buf, format="png", dpi=dpi, metadata={"Software": None})
     return buf.getvalue()

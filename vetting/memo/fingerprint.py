@@ -2,7 +2,7 @@
 
 Each record the memo used (the job profile, the policy version with its rules, and every
 instrument considered with all its evidence) is turned into canonical JSON: the domain
-dataclass through dataclasses.asdict, keys sorted, dates and times in ISO 8601, no whitespace,
+dataclass field by field (what dataclasses.asdict gives), keys sorted, dates and times in ISO 8601, no whitespace,
 ASCII only. Each record gets its own SHA-256 (a sub-fingerprint), and the memo's fingerprint is
 the SHA-256 of the canonical JSON of all of them together. The memo stores the fingerprint and
 the sub-fingerprints, so `verify` can recompute them from the database and name what changed.
@@ -29,9 +29,25 @@ _JOB_SKIP = {"row_version", "first_ranked_at", "policy"}
 _INSTRUMENT_SKIP = {"row_version"}
 
 
+_NOT_DATACLASS = ()
+_FIELDS: dict[type, tuple[str, ...]] = {}  # field names per dataclass type (() for other types)
+
+
 def _plain(value: Any) -> Any:
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return _plain(dataclasses.asdict(value))
+    """Plain JSON-ready data in one pass: the same result as dataclasses.asdict followed by a
+    walk over the dicts and lists, without building the intermediate copies."""
+    t = type(value)
+    if t is str or t is int or t is bool or value is None:
+        return value
+    if t is list or t is tuple:
+        return [_plain(v) for v in value]
+    names = _FIELDS.get(t)
+    if names is None:
+        names = _FIELDS[t] = (
+            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
+        )
+    if names:
+        return {n: _plain(getattr(value, n)) for n in names}
     if isinstance(value, dict):
         return {str(k): _plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -95,8 +111,17 @@ def compute(job: Job, policy: Policy, instruments: list[Instrument]) -> Fingerpr
     }
     for inst in instruments:
         payloads[f"instrument:{inst.key}"] = instrument_record(inst)
-    records = {name: sha256(canonical_json(p)) for name, p in sorted(payloads.items())}
-    whole = sha256(canonical_json({"format": FINGERPRINT_FORMAT, "records": payloads}))
+    texts = {name: canonical_json(p) for name, p in sorted(payloads.items())}
+    records = {name: sha256(text) for name, text in texts.items()}
+    # the canonical JSON of {"format": ..., "records": payloads}, put together from the texts
+    # already made (keys sorted, no whitespace: exactly what canonical_json would write)
+    whole_text = (
+        canonical_json({"format": FINGERPRINT_FORMAT})[:-1]
+        + ',"records":{'
+        + ",".join(canonical_json(name) + ":" + text for name, text in texts.items())
+        + "}}"
+    )
+    whole = sha256(whole_text)
     return Fingerprint(value=whole, job=job.key, policy_version=policy.version, records=records)
 
 

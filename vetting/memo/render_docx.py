@@ -63,12 +63,27 @@ def _repeat_header(row) -> None:
     row._tr.get_or_add_trPr().append(parse_xml(f'<w:tblHeader {nsdecls("w")}/>'))
 
 
+def _para(doc, text: str, style: str):
+    """doc.add_paragraph(text, style=style), with the style's id looked up once per document:
+    python-docx searches every style for the default one on each lookup, which at hundreds of
+    paragraphs was a large share of the Word memo's time. Writes the same XML."""
+    from docx.enum.style import WD_STYLE_TYPE
+
+    ids = doc.__dict__.setdefault("_vetting_style_ids", {})
+    if style not in ids:
+        ids[style] = doc.part.get_style_id(style, WD_STYLE_TYPE.PARAGRAPH)
+    p = doc.add_paragraph(text)
+    if ids[style] is not None:
+        p._p.style = ids[style]
+    return p
+
+
 def _add_table(doc, table: Table) -> None:
     from docx.enum.text import WD_ALIGN_PARAGRAPH
     from docx.shared import Pt
 
     if table.caption:
-        cap = doc.add_paragraph(_t(table.caption), style="Caption")
+        cap = _para(doc, _t(table.caption), "Caption")
         cap.paragraph_format.keep_with_next = True
     t = doc.add_table(rows=1, cols=len(table.columns))
     t.style = doc.styles[TABLE_STYLE]
@@ -77,33 +92,33 @@ def _add_table(doc, table: Table) -> None:
     tbl_look = t._tbl.tblPr.find("{http://schemas.openxmlformats.org/wordprocessingml/2006/main}tblLook")
     if tbl_look is not None:
         tbl_look.set("{http://schemas.openxmlformats.org/wordprocessingml/2006/main}firstColumn", "0")
-    hdr = t.rows[0]
-    _repeat_header(hdr)
-    for i, name in enumerate(table.columns):
-        cell = hdr.cells[i]
-        cell.text = _t(name)
-        if i in table.numeric:
-            cell.paragraphs[0].alignment = WD_ALIGN_PARAGRAPH.RIGHT
-    for row in table.rows:
-        cells = t.add_row().cells
-        for i, value in enumerate(row):
-            cells[i].text = _t(value)
-            if i in table.numeric:
-                cells[i].paragraphs[0].alignment = WD_ALIGN_PARAGRAPH.RIGHT
     wide = len(table.columns) >= 8
     font = Pt(7.5) if wide else Pt(8.5)
     widths = _column_widths(table, chars_per_cm=6.3 if wide else 5.6)
+    no_space = Pt(0)
+
+    def fill(row, values) -> None:
+        # one pass per row: python-docx rebuilds the row's cell list on every `row.cells`
+        _keep_row_together(row)
+        for i, cell in enumerate(row.cells):
+            if i < len(values):
+                cell.text = _t(values[i])
+            cell.width = widths[i]
+            for p in cell.paragraphs:
+                if i in table.numeric:
+                    p.alignment = WD_ALIGN_PARAGRAPH.RIGHT
+                p.paragraph_format.space_after = no_space
+                for run in p.runs:
+                    run.font.size = font
+
+    hdr = t.rows[0]
+    _repeat_header(hdr)
+    fill(hdr, table.columns)
+    for row in table.rows:
+        fill(t.add_row(), row)
     t.autofit = False
     for i, width in enumerate(widths):
         t.columns[i].width = width
-    for row in t.rows:
-        _keep_row_together(row)
-        for i, cell in enumerate(row.cells):
-            cell.width = widths[i]
-            for p in cell.paragraphs:
-                p.paragraph_format.space_after = Pt(0)
-                for run in p.runs:
-                    run.font.size = font
     doc.add_paragraph().paragraph_format.space_after = Pt(2)
 
 
@@ -164,7 +179,7 @@ def _add_block(doc, block) -> None:
             run.font.color.rgb = RGBColor(0x52, 0x60, 0x6D)
     elif isinstance(block, BulletList):
         for item in block.items:
-            doc.add_paragraph(_t(item), style="List Bullet")
+            _para(doc, _t(item), "List Bullet")
     elif isinstance(block, Facts):
         t = doc.add_table(rows=0, cols=2)
         for label, value in block.rows:
@@ -196,13 +211,13 @@ def _add_block(doc, block) -> None:
         png = charts.to_png(block.chart)
         doc.add_picture(io.BytesIO(png), width=Inches(6.2))
         doc.paragraphs[-1].paragraph_format.keep_with_next = True
-        doc.add_paragraph(_t(block.caption), style="Caption")
+        _para(doc, _t(block.caption), "Caption")
     else:
         raise TypeError(f"unknown block {type(block).__name__}")
 
 
 def _add_section(doc, section: Section, level: int) -> None:
-    doc.add_heading(_t(section.title), level=min(level, 9))
+    _para(doc, _t(section.title), f"Heading {min(level, 9)}")
     for block in section.blocks:
         _add_block(doc, block)
     for sub in section.subsections:
