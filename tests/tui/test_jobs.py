@@ -181,3 +181,26 @@ async def test_delete_job_asks_first(seeded_url, app_for, settle):
         assert app.screen.jobs == []
     with Store.open(seeded_url) as store:
         assert store.job_keys() == []
+
+
+async def test_lock_key_works_while_typing_in_a_field(seeded_url, app_for, settle):
+    """Ctrl+K locks the policy even when a text field has focus (a text field would otherwise
+    take it as 'delete to the end of the line' and silently erase what was typed)."""
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        title = editor.query_one(".job-profile", RecordBlock).fields["title"]
+        title.input.focus()
+        await pilot.pause()
+        title.input.cursor_position = 0
+        await pilot.press("ctrl+k")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("y")
+        await settle(pilot)
+        assert title.input.value == "Claims clerk"
+    with Store.open(seeded_url) as store:
+        assert store.policy_versions("claims-clerk")[0].locked

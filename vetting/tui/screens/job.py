@@ -184,7 +184,8 @@ class JobEditor(EditorScreen):
     nav_place = "jobs"
     LAZY = False  # three short sections; all are checked before saving
     BINDINGS = [
-        Binding("ctrl+k", "lock_policy", "Lock policy", id="job.lock",
+        # priority: a text field would otherwise take ctrl+k (delete to the end of the line)
+        Binding("ctrl+k", "lock_policy", "Lock policy", id="job.lock", priority=True,
                 tooltip="Freeze the current policy version before looking at results"),
     ]
 
