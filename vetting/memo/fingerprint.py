@@ -39,6 +39,9 @@ def _plain(value: Any) -> Any:
     t = type(value)
     if t is str or t is int or t is bool or value is None:
         return value
+    if t is float:
+        # 30 and 30.0 are the same figure whichever database column type held it
+        return int(value) if value.is_integer() and abs(value) < 2**53 else value
     if t is list or t is tuple:
         return [_plain(v) for v in value]
     names = _FIELDS.get(t)
