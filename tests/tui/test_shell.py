@@ -97,10 +97,8 @@ async def test_results_screens_plug_in_by_name(seeded_url, app_for, settle, monk
     app = app_for(seeded_url)
     async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
-        await pilot.press("f4")  # no job chosen yet
-        await settle(pilot)
-        assert isinstance(app.screen, CatalogueScreen)
-        assert any("Choose a job first" in str(n.message) for n in app._notifications)
+        # no job highlighted yet: the first job (in the Jobs screen's order) is the current one
+        assert app.current_job == min(app.data.jobs(), key=lambda j: j.title.lower()).key
         app.current_job = "claims-clerk"
         await pilot.press("f4")
         await settle(pilot)
@@ -110,6 +108,17 @@ async def test_results_screens_plug_in_by_name(seeded_url, app_for, settle, monk
         await settle(pilot)
         assert isinstance(app.screen, FakeCompare)
         assert any("not installed" in str(n.message) for n in app._notifications)
+
+
+async def test_results_keys_on_an_empty_database_ask_for_a_job(db_url, app_for, settle):
+    app = app_for(db_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert app.current_job is None
+        await pilot.press("f4")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)
+        assert any("Choose a job first" in str(n.message) for n in app._notifications)
 
 
 async def test_light_and_dark_themes(db_url, app_for, settle):

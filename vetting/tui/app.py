@@ -19,7 +19,7 @@ import importlib
 from collections.abc import Callable, Iterable
 from functools import partial
 
-from textual import events
+from textual import events, work
 from textual.app import App, SystemCommand
 from textual.binding import Binding
 from textual.command import DiscoveryHit, Hit, Hits, Provider
@@ -129,6 +129,22 @@ class VettingApp(App[int]):
         from vetting.tui.screens.catalogue import CatalogueScreen
 
         self.push_screen(CatalogueScreen())
+        self._pick_default_job()
+
+    @work(thread=True, exclusive=True, group="default-job")
+    def _pick_default_job(self) -> None:
+        """Make the first job (in the Jobs screen's order) current, so F4-F7 work at once."""
+        try:
+            jobs = self.data.jobs()
+        except Exception:  # the Jobs screen reports database problems when it is opened
+            return
+        if jobs:
+            first = min(jobs, key=lambda j: j.title.lower()).key
+            self.call_from_thread(self._default_job, first)
+
+    def _default_job(self, key: str) -> None:
+        if self.current_job is None:
+            self.current_job = key
 
     def on_descendant_focus(self, event: events.DescendantFocus) -> None:
         if not self.cursor_blink and hasattr(event.widget, "cursor_blink"):
