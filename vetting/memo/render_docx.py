@@ -6,6 +6,7 @@ comments = the stamp JSON, content status = draft/final) and is also printed in 
 
 from __future__ import annotations
 
+import copy
 import io
 import json
 import re
@@ -64,17 +65,33 @@ def _repeat_header(row) -> None:
 
 
 def _para(doc, text: str, style: str):
-    """doc.add_paragraph(text, style=style), with the style's id looked up once per document:
-    python-docx searches every style for the default one on each lookup, which at hundreds of
-    paragraphs was a large share of the Word memo's time. Writes the same XML."""
+    """doc.add_paragraph(text, style=style), writing the same XML faster: python-docx looks the
+    style up (searching every style for the default one) and finds the paragraph's place anew
+    for each paragraph, which at thousands of paragraphs was a large share of the Word memo's
+    time. Here the style is looked up once per document and each paragraph is a copy."""
     from docx.enum.style import WD_STYLE_TYPE
+    from docx.text.paragraph import Paragraph as DocxParagraph
 
-    ids = doc.__dict__.setdefault("_vetting_style_ids", {})
-    if style not in ids:
-        ids[style] = doc.part.get_style_id(style, WD_STYLE_TYPE.PARAGRAPH)
-    p = doc.add_paragraph(text)
-    if ids[style] is not None:
-        p._p.style = ids[style]
+    # an empty styled paragraph per style, copied for each new one (python-docx would otherwise
+    # search the body's children for where to put every paragraph and build its properties anew)
+    protos = doc.__dict__.setdefault("_vetting_paragraphs", {})
+    if style not in protos:
+        p = doc.add_paragraph()
+        style_id = doc.part.get_style_id(style, WD_STYLE_TYPE.PARAGRAPH)
+        if style_id is not None:
+            p._p.style = style_id
+        protos[style] = copy.deepcopy(p._p)
+    else:
+        body = doc.element.body
+        p_el = copy.deepcopy(protos[style])
+        sect = body.sectPr
+        if sect is not None:
+            sect.addprevious(p_el)
+        else:
+            body.append(p_el)
+        p = DocxParagraph(p_el, doc._body)
+    if text:
+        p.add_run(text)
     return p
 
 
@@ -114,8 +131,22 @@ def _add_table(doc, table: Table) -> None:
     hdr = t.rows[0]
     _repeat_header(hdr)
     fill(hdr, table.columns)
-    for row in table.rows:
-        fill(t.add_row(), row)
+    # the rows after the first full one are copies of it with their own text: the same XML as
+    # filling each through python-docx, without rebuilding the formatting cell by cell (at a
+    # thousand candidates that was most of the Word memo's time)
+    full = len(table.columns)
+    proto = None
+    for values in table.rows:
+        if proto is not None and len(values) == full:
+            tr = copy.deepcopy(proto)
+            for tc, value in zip(tr.tc_lst, values):
+                tc.p_lst[0].r_lst[0].text = _t(value)
+            t._tbl.append(tr)
+            continue
+        row = t.add_row()
+        fill(row, values)
+        if len(values) == full:
+            proto = row._tr
     t.autofit = False
     for i, width in enumerate(widths):
         t.columns[i].width = width
