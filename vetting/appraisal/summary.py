@@ -17,9 +17,27 @@ from vetting.records.domain import Instrument, Policy
 
 
 def summarise(instrument: Instrument, as_of: dt.date | None = None, policy: Policy | None = None) -> InstrumentSummary:
+    from vetting.psychometrics import validity as pv
+
+    return _summary(instrument, as_of or dt.date.today(), policy or Policy(), pv.conservative_validity)
+
+
+def summarise_all(instruments: list[Instrument], as_of: dt.date | None = None, policy: Policy | None = None) -> list[InstrumentSummary]:
+    """`summarise` for every instrument, with the shared set-up (date, policy, engine) done once."""
+    from vetting.psychometrics import validity as pv
+
     as_of = as_of or dt.date.today()
+    policy = policy or Policy()
+    conservative = pv.conservative_validity
+    return [_summary(i, as_of, policy, conservative) for i in instruments]
+
+
+def _summary(instrument: Instrument, as_of: dt.date, policy: Policy, conservative) -> InstrumentSummary:
     rel = choose_reliability(instrument)
-    detail = comp.validity_detail(instrument, policy or Policy())
+    # The same figures as components.validity_detail (the same studies, the same engine call),
+    # without what the table does not show: the meta-analysis of a single study and the rule text.
+    used, _ = comp.select_studies(instrument, policy)
+    validity = float(conservative([u.r_signed for u in used], [u.n for u in used]).value) if used else None
     sc = instrument.sample_copy
     return InstrumentSummary(
         key=instrument.key,
@@ -33,16 +51,11 @@ def summarise(instrument: Instrument, as_of: dt.date | None = None, policy: Poli
         qualification=instrument.user_qualification,
         best_reliability=rel.value,
         best_reliability_type=rel.type,
-        conservative_validity=detail.conservative,
-        validity_k=detail.k,
-        validity_n=detail.total_n,
+        conservative_validity=validity,
+        validity_k=len(used),
+        validity_n=sum(u.n for u in used),
         norm_age_years=min((comp.norm_age(n, as_of) for n in instrument.norms), default=None),
         norm_groups=len(instrument.norms),
         has_subgroup_data=bool(instrument.subgroup_differences),
         sample_copy_checked=bool(sc is not None and sc.checks),
     )
-
-
-def summarise_all(instruments: list[Instrument], as_of: dt.date | None = None, policy: Policy | None = None) -> list[InstrumentSummary]:
-    as_of = as_of or dt.date.today()
-    return [summarise(i, as_of, policy) for i in instruments]

@@ -89,7 +89,7 @@ class MetaAnalysis:
 def _studies(rs: Sequence[float], ns: Sequence[float]) -> tuple[np.ndarray, np.ndarray]:
     r = ck.correlation(rs, "rs", closed=False).reshape(-1)
     n = ck.in_range(ns, "ns", 3.0, lo_open=True, hint=" (each study needs at least 4 people)").reshape(-1)
-    if np.any(n != np.round(n)):
+    if (n != np.round(n)).any():  # the method: no per-call wrapper overhead
         raise PsychometricsError("ns must be whole numbers of people")
     if r.size != n.size:
         raise PsychometricsError(f"rs and ns must have the same length; got {r.size} and {n.size}")
