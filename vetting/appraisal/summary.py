@@ -14,6 +14,7 @@ from vetting.appraisal import components as comp
 from vetting.appraisal.gates import choose_reliability
 from vetting.appraisal.types import InstrumentSummary
 from vetting.records.domain import Instrument, Policy
+from vetting.records.gcpause import gc_pause
 
 
 def summarise(instrument: Instrument, as_of: dt.date | None = None, policy: Policy | None = None) -> InstrumentSummary:
@@ -29,7 +30,9 @@ def summarise_all(instruments: list[Instrument], as_of: dt.date | None = None, p
     as_of = as_of or dt.date.today()
     policy = policy or Policy()
     conservative = pv.conservative_validity
-    return [_summary(i, as_of, policy, conservative) for i in instruments]
+    # many small objects and no cycles: the garbage collector would only rescan a large heap
+    with gc_pause():
+        return [_summary(i, as_of, policy, conservative) for i in instruments]
 
 
 def _summary(instrument: Instrument, as_of: dt.date, policy: Policy, conservative) -> InstrumentSummary:

@@ -10,15 +10,13 @@ Used only by vetting.records.store, inside its transactions.
 from __future__ import annotations
 
 import datetime as dt
-import functools
-import gc
 from collections import defaultdict
-from collections.abc import Callable
 from typing import Any
 
 from sqlalchemy import delete, insert, select, update
 from sqlalchemy.orm import Session
 
+from vetting.records import gcpause as _gcpause
 from vetting.records import models as m
 from vetting.records.domain import (
     Instrument,
@@ -47,22 +45,9 @@ CHK = m.SampleCheckRow.__table__
 _CHUNK = 2000
 
 
-def gc_paused(fn: Callable) -> Callable:
-    """Pause the cyclic garbage collector while building many small objects: the objects built
-    here hold no cycles, and repeated full collections over a growing heap otherwise more than
-    double the time of a large load."""
-
-    @functools.wraps(fn)
-    def wrapper(*args, **kwargs):
-        was_enabled = gc.isenabled()
-        gc.disable()
-        try:
-            return fn(*args, **kwargs)
-        finally:
-            if was_enabled:
-                gc.enable()
-
-    return wrapper
+#: the garbage collector paused during bulk reads and writes (vetting.records.gcpause: counted
+#: across threads, so one worker finishing does not switch it back on under another)
+gc_paused = _gcpause.gc_paused
 
 
 def _grouped(s: Session, table, ids_query, fields: list[str]) -> dict[int, list[tuple]]:
