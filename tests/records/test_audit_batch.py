@@ -64,3 +64,17 @@ def test_batch_over_more_keys_than_one_query_takes(store):
     got = store.audit_events_for(jobs=jobs, instruments=keys)
     assert got == _union(store, jobs, keys)
     assert {e.key for e in got if e.entity == "instrument"} == set(keys)
+
+
+def test_batch_last_and_count(store):
+    cat = generate_catalogue(520, seed=7)
+    store.import_catalogue(cat, source="big.yaml")
+    store.delete_instrument(cat.instruments[3].key)
+    keys = [i.key for i in cat.instruments]
+    jobs = [j.key for j in cat.jobs]
+    every = _union(store, jobs, keys)
+    assert store.audit_event_count_for(jobs=jobs, instruments=keys) == len(every)
+    assert store.audit_events_for(jobs=jobs, instruments=keys, last=7) == every[-7:]
+    assert store.audit_events_for(jobs=jobs, instruments=keys, last=10**6) == every
+    assert store.audit_events_for(jobs=jobs, instruments=keys, last=0) == []
+    assert store.audit_event_count_for() == 0

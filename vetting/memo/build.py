@@ -40,6 +40,9 @@ from vetting.records.domain import Instrument, Job, Policy
 
 NO_FIT = "No instrument is fit for use"
 
+#: How many of the newest audit events of the records used the memo lists.
+AUDIT_SHOWN = 200
+
 #: Selection ratios shown in the planner table and chart (the planned ratio is added to them).
 SWEEP_RATIOS = (0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9)
 
@@ -81,7 +84,8 @@ class MemoData:
     sweep_problem: str | None
     distribution: Any  # (NormGroup, CutPlan) for the chart, or None
     gaps: dict[str, GapReport]
-    audit: list[Any]
+    audit: list[Any]  # the newest AUDIT_SHOWN audit events of the records used, oldest first
+    audit_total: int  # how many audit events those records have in all
     fingerprint: fpm.Fingerprint
     by: str
     status: str
@@ -169,8 +173,11 @@ def gather(
 
     gaps = {i.key: gap_report(i, job=job, policy=job.policy, as_of=as_of) for i in instruments}
 
-    # the audit events of every record used, in one batched read (oldest first)
-    audit = list(store.audit_events_for(jobs=[job_key], instruments=[i.key for i in instruments]))
+    # the audit events of the records used, in batched reads (oldest first): the memo shows the
+    # newest AUDIT_SHOWN of them and says how many there are in all
+    used = {"jobs": [job_key], "instruments": [i.key for i in instruments]}
+    audit = list(store.audit_events_for(**used, last=AUDIT_SHOWN))
+    audit_total = store.audit_event_count_for(**used)
 
     fp = fpm.compute(job, job.policy, instruments)
     return MemoData(
@@ -190,6 +197,7 @@ def gather(
         distribution=distribution,
         gaps=gaps,
         audit=audit,
+        audit_total=audit_total,
         fingerprint=fp,
         by=by or getattr(store, "user", "") or "",
         status=status,
@@ -843,10 +851,9 @@ def _record(doc: Document, data: MemoData) -> None:
     )
     s.add(Facts([("Fingerprint", fp.value), ("Job", fp.job), ("Policy version", fmt.text(fp.policy_version))]))
     s.add(Table(["Record", "SHA-256"], [[name, digest] for name, digest in sorted(fp.records.items())], caption="Records used"))
-    limit = 200
-    events = data.audit[-limit:]
+    events = data.audit[-AUDIT_SHOWN:]
     rows = [[fmt.date(e.at), e.who, e.action, f"{e.entity} {e.key}"] for e in events]
     sub = s.sub("audit", "Audit events for these records")
-    if len(data.audit) > limit:
-        sub.add(Paragraph(f"The last {limit} of {len(data.audit)} events are shown.", style="small"))
+    if data.audit_total > len(events):
+        sub.add(Paragraph(f"The last {len(events)} of {data.audit_total} events are shown.", style="small"))
     sub.add(Table(["When (UTC)", "Who", "Action", "Record"], rows) if rows else Paragraph("No audit event is recorded."))

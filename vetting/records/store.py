@@ -632,21 +632,21 @@ class Store:
                 for r in s.scalars(q).all()
             ]
 
-    def audit_events_for(self, *, jobs=(), instruments=()) -> list[AuditEvent]:
+    def audit_events_for(self, *, jobs=(), instruments=(), last: int | None = None) -> list[AuditEvent]:
         """The audit events of many records at once, oldest first: for each key in `jobs` the
         job's own, policy and decision events, for each key in `instruments` the instrument's.
-        One query per 500 keys (not one per record), so a memo over a large catalogue stays fast."""
-        jobs, instruments = sorted(set(jobs)), sorted(set(instruments))
-        step = 500  # well under the bound-parameter limits of SQLite and PostgreSQL
+        With `last`, only the newest `last` of them. One query per 500 keys (not one per
+        record), so a memo over a large catalogue stays fast."""
         rows = []
         with self._read() as s:
-            for entities, keys in ((("job", "policy", "decision"), jobs), (("instrument",), instruments)):
-                for i in range(0, len(keys), step):
-                    q = select(m.AuditEventRow).where(
-                        m.AuditEventRow.entity.in_(entities), m.AuditEventRow.key.in_(keys[i : i + step])
-                    )
-                    rows += s.scalars(q).all()
+            for where in self._audit_filters(jobs, instruments):
+                q = select(m.AuditEventRow).where(*where)
+                if last is not None:
+                    q = q.order_by(m.AuditEventRow.id.desc()).limit(max(last, 0))
+                rows += s.scalars(q).all()
             rows.sort(key=lambda r: r.id)
+            if last is not None:
+                rows = rows[len(rows) - max(last, 0) :]
             return [
                 AuditEvent(
                     id=r.id, at=_utc(r.at), who=r.who, action=r.action, entity=r.entity, key=r.key,
@@ -654,6 +654,22 @@ class Store:
                 )
                 for r in rows
             ]
+
+    def audit_event_count_for(self, *, jobs=(), instruments=()) -> int:
+        """How many events audit_events_for(jobs=..., instruments=...) would return."""
+        with self._read() as s:
+            return sum(
+                s.scalar(select(func.count()).select_from(m.AuditEventRow).where(*where))
+                for where in self._audit_filters(jobs, instruments)
+            )
+
+    @staticmethod
+    def _audit_filters(jobs, instruments):
+        step = 500  # well under the bound-parameter limits of SQLite and PostgreSQL
+        jobs, instruments = sorted(set(jobs)), sorted(set(instruments))
+        for entities, keys in ((("job", "policy", "decision"), jobs), (("instrument",), instruments)):
+            for i in range(0, len(keys), step):
+                yield (m.AuditEventRow.entity.in_(entities), m.AuditEventRow.key.in_(keys[i : i + step]))
 
     # -- catalogues ------------------------------------------------------------
 
