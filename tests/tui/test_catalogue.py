@@ -236,3 +236,41 @@ async def test_delete_asks_and_removes_the_instrument(seeded_url, app_for, settl
         assert sorted(store.instrument_keys()) == ["ledger-scan", "tally-quick"]
         # the audit trail keeps what was deleted
         assert any(e.action == "delete" for e in store.audit_events(instrument="calm-index"))
+
+
+async def test_first_page_shows_before_the_whole_catalogue_is_read(seeded_url, app_for, settle, monkeypatch):
+    """On a large catalogue the first page (title order) is on screen while the rest is read."""
+    import threading
+
+    from vetting.tui.data import Data
+
+    monkeypatch.setattr(CatalogueScreen, "MAX_TABLE_ROWS", 2)
+    release = threading.Event()
+    full_read = Data.catalogue_rows
+
+    def slow_full_read(self, *args, **kwargs):
+        release.wait(timeout=30)
+        return full_read(self, *args, **kwargs)
+
+    monkeypatch.setattr(Data, "catalogue_rows", slow_full_read)
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 24)) as pilot:
+        screen = app.screen
+        for _ in range(100):
+            await pilot.pause(0.05)
+            if screen.first_page_shown:
+                break
+        assert screen.first_page_shown and not screen.loaded
+        table = screen.query_one(DataTable)
+        with Store.open(seeded_url) as store:
+            titles = sorted((i.title for i in store.instruments()), key=str.lower)
+        assert table.row_count == 2 and _titles(screen) == titles[:2]
+        assert "first 2 of 3" in str(screen.query_one("#count").render())
+        release.set()
+        for _ in range(100):
+            await pilot.pause(0.05)
+            if screen.loaded:
+                break
+        await settle(pilot)
+        assert screen.loaded and len(screen.rows) == 3
+        assert "3 instruments" in str(screen.query_one("#count").render())

@@ -370,6 +370,20 @@ class Store:
         with self._read() as s:
             return instrument_io.load(s)
 
+    def instruments_first_by_title(self, limit: int) -> tuple[list[Instrument], int]:
+        """The first `limit` instruments in title order (case-insensitive), with all their
+        evidence, and how many instruments there are in all. Lets a screen show its first page
+        before the whole catalogue is read."""
+        with self._read() as s:
+            # ordered in Python, not SQL: database collations differ (PostgreSQL's may ignore
+            # spaces and punctuation), and the screen sorts by Python's str.lower()
+            heads = s.execute(select(INST.c.id, INST.c.title)).all()
+            heads.sort(key=lambda row: (row.title.lower(), row.id))
+            first = [row.id for row in heads[: max(0, int(limit))]]
+            found = instrument_io.load(s, INST.c.id.in_(first)) if first else []
+            found.sort(key=lambda inst: inst.title.lower())
+            return found, len(heads)
+
     def instrument_keys(self) -> list[str]:
         with self._read() as s:
             return list(s.scalars(select(m.InstrumentRow.key).order_by(m.InstrumentRow.id)).all())

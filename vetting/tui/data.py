@@ -113,6 +113,17 @@ class Data:
                 progress(len(rows), total)
         return rows
 
+    def catalogue_first_page(self, limit: int) -> tuple[list[CatalogueRow], int]:
+        """The first `limit` instruments by title with their summaries, and the total count:
+        what the catalogue shows while the rest is still being read."""
+        from vetting.appraisal.summary import summarise_all
+
+        store = self.store
+        names = {a.key: a.name for a in store.attributes()}
+        instruments, total = store.instruments_first_by_title(limit)
+        summaries = summarise_all(instruments, self.as_of())
+        return [_row(inst, summary, names) for inst, summary in zip(instruments, summaries)], total
+
     def catalogue_row(self, key: str) -> CatalogueRow:
         """The table row of one instrument (after it was saved)."""
         store = self.store

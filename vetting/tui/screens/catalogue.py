@@ -139,6 +139,9 @@ class CatalogueScreen(Screen):
         self.sort_column = "title"
         self.sort_reverse = False
         self.loaded = False
+        #: set while only the first page is on screen: how many instruments there are in all
+        self.expected_total = 0
+        self.first_page_shown = False
         self._filter_timer = None
         self._ordered: list[CatalogueRow] = []
         self._keys: list[str] = []
@@ -190,6 +193,11 @@ class CatalogueScreen(Screen):
             self.app.call_from_thread(self._show_progress, done, total)
 
         try:
+            # the first page in title order first, so the screen is usable at once on a large
+            # catalogue; sorting and filtering work on every instrument once the rest is read
+            first, total = self.app.data.catalogue_first_page(self.MAX_TABLE_ROWS)
+            if total > len(first) and not worker.is_cancelled:
+                self.app.call_from_thread(self._first_page, first, total)
             rows = self.app.data.catalogue_rows(progress=progress, cancelled=lambda: worker.is_cancelled)
         except Exception as exc:  # shown to the user; the screen stays usable
             self.app.call_from_thread(self._load_failed, exc)
@@ -197,7 +205,20 @@ class CatalogueScreen(Screen):
         if not worker.is_cancelled:
             self.app.call_from_thread(self._loaded, rows)
 
+    def _first_page(self, rows: list[CatalogueRow], total: int) -> None:
+        if self.loaded:
+            return
+        self.rows = rows
+        self.expected_total = total
+        self._stale = True
+        self._resort()
+        self._apply_filter()
+        self.first_page_shown = True
+
     def _show_progress(self, done: int, total: int) -> None:
+        if self.rows:  # the first page is on screen: keep it, and say the rest is coming
+            self.query_one("#count", Static).update(f"reading {done:,} of {total:,}…")
+            return
         self.query_one("#count", Static).update(f"loading {done:,} of {total:,}…")
 
     def _load_failed(self, exc: Exception) -> None:
@@ -251,6 +272,8 @@ class CatalogueScreen(Screen):
         total = len(self.rows)
         shown = len(self.shown)
         count = f"{shown:,} of {total:,} instruments" if shown != total else f"{total:,} instruments"
+        if not self.loaded and self.expected_total:
+            count = f"first {total:,} of {self.expected_total:,} · reading the rest…"
         self.query_one("#count", Static).update(count)
         col = _BY_ID[self.sort_column]
         order = "highest first" if (col.high_first != self.sort_reverse) else "lowest first"
