@@ -17,6 +17,7 @@ Nothing here writes to a database; `parse_catalogue` returns plain domain object
 from __future__ import annotations
 
 import datetime as dt
+import io
 import math
 import os
 import re
@@ -40,6 +41,7 @@ __all__ = [
     "MAX_PROBLEMS",
     "MAX_SCALAR_CHARS",
     "dump_catalogue",
+    "emit_catalogue",
     "load_catalogue",
     "load_catalogues",
     "merge_catalogues",
@@ -828,64 +830,145 @@ def _number(value: Any) -> float | int:
 
 _HEADER = "# vetting catalogue, format 1 (see docs/catalogue-format.md)\n"
 
+# The writer streams: each record is turned into plain data, then into PyYAML events, which go
+# straight to PyYAML's emitter (the C one when present) and from there to the output stream.
+# Only one record's data and events are held at a time, and no node graph is built. The events
+# carry the tags and "implicit" flags that PyYAML's serializer would have given the same node
+# graph (the serializer asks the resolver, for every scalar, whether its text would read back
+# as the same type when written plain); here that answer is computed once per distinct text
+# through the same implicit-resolver table, so the output is byte for byte what serializing
+# the whole document gave (pinned by tests/records/test_catalogue_stream.py).
+
+_STR, _INT, _FLOAT, _BOOL, _DATE = (_T + t for t in ("str", "int", "float", "bool", "timestamp"))
+_MAP_START = yaml.MappingStartEvent(None, _T + "map", True, flow_style=False)
+_MAP_END = yaml.MappingEndEvent()
+_SEQ_START = yaml.SequenceStartEvent(None, _T + "seq", True, flow_style=False)
+_SEQ_END = yaml.SequenceEndEvent()
+_ScalarEvent = yaml.ScalarEvent
+#: Scalar events of short texts seen before (field names, vocabulary words, keys...); events
+#: are never changed by the emitter, so one object serves every occurrence.
+_EVENT_CACHE_MAX = 2_000
+_EVENT_CACHE_TEXT = 40
+
+
+def _plain_tag(text: str) -> str:
+    """The tag PyYAML's resolver gives `text` written as a plain scalar (what
+    `Resolver.resolve(ScalarNode, text, (True, False))` returns for the dumper's resolver)."""
+    table = _Dumper.yaml_implicit_resolvers
+    candidates = table.get(text[0] if text else "", ())
+    wildcard = table.get(None, ())
+    for tag, regexp in (*candidates, *wildcard):
+        if regexp.match(text):
+            return tag
+    return _STR
+
+
+class _EventMaker:
+    """Plain data (as `_plain` gives it) -> the PyYAML events of its block-style node."""
+
+    def __init__(self) -> None:
+        self.cache: dict[tuple[str, str], yaml.ScalarEvent] = {}
+
+    def scalar(self, tag: str, text: str) -> yaml.ScalarEvent:
+        key = (tag, text)
+        event = self.cache.get(key)
+        if event is not None:
+            return event
+        event = _ScalarEvent(None, tag, (_plain_tag(text) == tag, tag == _STR), text)
+        if len(text) <= _EVENT_CACHE_TEXT and len(self.cache) < _EVENT_CACHE_MAX:
+            self.cache[key] = event
+        return event
+
+    def events(self, value: Any, out: list) -> None:
+        if isinstance(value, dict):
+            out.append(_MAP_START)
+            scalar = self.scalar
+            for k, v in value.items():
+                out.append(scalar(_STR, k))
+                self.events(v, out)
+            out.append(_MAP_END)
+        elif isinstance(value, list):
+            out.append(_SEQ_START)
+            for v in value:
+                self.events(v, out)
+            out.append(_SEQ_END)
+        elif isinstance(value, str):
+            out.append(self.scalar(_STR, value))
+        elif isinstance(value, bool):
+            out.append(self.scalar(_BOOL, "true" if value else "false"))
+        elif isinstance(value, int):
+            out.append(self.scalar(_INT, str(value)))
+        elif isinstance(value, float):
+            text = repr(value).lower()  # as PyYAML's own representer writes floats
+            if "." not in text and "e" in text:
+                text = text.replace("e", ".0e", 1)
+            out.append(self.scalar(_FLOAT, text))
+        elif isinstance(value, dt.date):
+            out.append(self.scalar(_DATE, value.isoformat()))
+        else:
+            raise TypeError(f"cannot write {type(value).__name__} to a catalogue")
+
+
+def emit_catalogue(cat: d.Catalogue, stream: Any) -> None:
+    """Write the catalogue as format-1 YAML text to `stream` (anything with `write(str)`),
+    record by record: memory stays at about one record's worth beyond the catalogue itself.
+    Raises ValueError (e.g. a non-finite number) part-way through, after some text may have
+    been written; `write_catalogue` then leaves the target file untouched."""
+    maker = _EventMaker()
+    stream.write(_HEADER)
+    emitter = _Dumper(stream, allow_unicode=True, width=100, indent=2)
+    emit = emitter.emit
+    try:
+        with _gc_paused():
+            emit(yaml.StreamStartEvent())
+            emit(yaml.DocumentStartEvent(explicit=False))
+            emit(_MAP_START)
+            emit(maker.scalar(_STR, "format"))
+            emit(maker.scalar(_INT, str(FORMAT_VERSION)))
+            for section, entity, records in (
+                ("attributes", "attribute", cat.attributes),
+                ("instruments", "instrument", cat.instruments),
+                ("jobs", "job", cat.jobs),
+            ):
+                if not records:
+                    continue
+                emit(maker.scalar(_STR, section))
+                emit(_SEQ_START)
+                for record in records:
+                    events: list = []
+                    maker.events(_plain(entity, record), events)
+                    for event in events:
+                        emit(event)
+                emit(_SEQ_END)
+            emit(_MAP_END)
+            emit(yaml.DocumentEndEvent(explicit=False))
+            emit(yaml.StreamEndEvent())
+    finally:
+        dispose = getattr(emitter, "dispose", None)
+        if dispose is not None:
+            dispose()
+
 
 def dump_catalogue(cat: d.Catalogue) -> str:
     """The catalogue as format-1 YAML text: stable field order, absent/empty optional fields
     left out, dates as YYYY-MM-DD. `parse_catalogue(dump_catalogue(c))` equals `c` for every
-    catalogue that passes the rules (database bookkeeping such as row_version is not written)."""
-    doc: dict[str, Any] = {"format": FORMAT_VERSION}
-    if cat.attributes:
-        doc["attributes"] = [_plain("attribute", a) for a in cat.attributes]
-    if cat.instruments:
-        doc["instruments"] = [_plain("instrument", i) for i in cat.instruments]
-    if cat.jobs:
-        doc["jobs"] = [_plain("job", j) for j in cat.jobs]
-    with _gc_paused():
-        body = yaml.serialize(
-            _node(doc),
-            Dumper=_Dumper,
-            allow_unicode=True,
-            width=100,
-            indent=2,
-        )
-    return _HEADER + body
-
-
-def _node(value: Any) -> yaml.Node:
-    """Plain data -> a YAML node tree (block style), built directly rather than through
-    PyYAML's representer: three times faster on large catalogues. Every node is a new object,
-    so the serializer never writes anchors."""
-    if isinstance(value, dict):
-        return yaml.MappingNode(
-            _T + "map", [(yaml.ScalarNode(_T + "str", k), _node(v)) for k, v in value.items()], flow_style=False
-        )
-    if isinstance(value, list):
-        return yaml.SequenceNode(_T + "seq", [_node(v) for v in value], flow_style=False)
-    if isinstance(value, str):
-        return yaml.ScalarNode(_T + "str", value)
-    if isinstance(value, bool):
-        return yaml.ScalarNode(_T + "bool", "true" if value else "false")
-    if isinstance(value, int):
-        return yaml.ScalarNode(_T + "int", str(value))
-    if isinstance(value, float):
-        text = repr(value).lower()  # as PyYAML's own representer writes floats
-        if "." not in text and "e" in text:
-            text = text.replace("e", ".0e", 1)
-        return yaml.ScalarNode(_T + "float", text)
-    if isinstance(value, dt.date):
-        return yaml.ScalarNode(_T + "timestamp", value.isoformat())
-    raise TypeError(f"cannot write {type(value).__name__} to a catalogue")
+    catalogue that passes the rules (database bookkeeping such as row_version is not written).
+    For large catalogues prefer `write_catalogue` or `emit_catalogue`, which do not hold the
+    whole text."""
+    buffer = io.StringIO()
+    emit_catalogue(cat, buffer)
+    return buffer.getvalue()
 
 
 def write_catalogue(cat: d.Catalogue, path: str | os.PathLike[str]) -> None:
-    """Write the catalogue atomically: a temporary file beside `path`, then os.replace."""
-    text = dump_catalogue(cat)
+    """Write the catalogue atomically: streamed into a temporary file beside `path`, then
+    os.replace. On any failure the temporary file is removed and `path` is left as it was."""
     target = Path(path)
     directory = target.parent if str(target.parent) else Path(".")
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
     try:
         with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
+            emit_catalogue(cat, fh)
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(tmp, target)
