@@ -11,8 +11,11 @@ above an otherwise equal one because something was left out.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 import re
+
+import numpy as np
 
 from vetting.appraisal.types import AppraisalWarning, Component, ReliabilityUsed, StudyUse, ValidityDetail
 from vetting.records.domain import Instrument, Job, NormGroup, Policy
@@ -56,6 +59,45 @@ def _w(code: str, text: str) -> AppraisalWarning:
     return AppraisalWarning(code, text)
 
 
+class JobContext:
+    """What depends only on the job and its policy, worked out once for a whole ranking instead of
+    once per instrument (the requirement weights and their words, the relevant criteria and job
+    families, the words of the job title). Every component gives the same result with or
+    without one; passing one only saves the repeated work."""
+
+    __slots__ = ("job", "policy", "requirements", "criteria", "families", "targets")
+
+    def __init__(self, job: Job, policy: Policy | None = None) -> None:
+        self.job = job
+        self.policy = policy = policy if policy is not None else job.policy
+        #: (attribute, weight, critical, words by credit) in the job's order
+        self.requirements = [
+            (
+                req.attribute,
+                weight,
+                req.critical,
+                {c: f"{req.attribute} {c:g}x{weight:g}" for c in (0.0, *FIT_CREDIT.values())},
+            )
+            for req in job.requirements
+            for weight in (req.importance * (CRITICAL_MULTIPLIER if req.critical else 1.0),)
+        ]
+        #: lower-cased relevant criteria / job families (None: every one counts)
+        self.criteria = _lowered(policy.relevant_criteria)
+        self.families = _lowered(policy.relevant_job_families)
+        #: the significant words of the job title and of each relevant job family
+        self.targets = [_occupation_tokens(job.title)] + [_occupation_tokens(f) for f in policy.relevant_job_families]
+
+
+def _lowered(allowed: list[str]) -> frozenset[str] | None:
+    return frozenset(a.strip().lower() for a in allowed) if allowed else None
+
+
+def _context(job: Job, policy: Policy | None, ctx: JobContext | None) -> JobContext:
+    if ctx is not None and ctx.job is job and (policy is None or ctx.policy is policy):
+        return ctx
+    return JobContext(job, policy)
+
+
 # --- coverage ---------------------------------------------------------------------------------
 
 COVERAGE_MAPPING = (
@@ -65,20 +107,22 @@ COVERAGE_MAPPING = (
 )
 
 
-def coverage(job: Job, instrument: Instrument) -> tuple[Component, list[AppraisalWarning]]:
+def coverage(job: Job, instrument: Instrument, ctx: JobContext | None = None) -> tuple[Component, list[AppraisalWarning]]:
+    ctx = _context(job, None, ctx)
     fits: dict[str, float] = {}
     for m in instrument.measures:
-        fits[m.attribute] = max(fits.get(m.attribute, 0.0), FIT_CREDIT.get(m.fit, 0.0))
+        credit = FIT_CREDIT.get(m.fit, 0.0)
+        if credit > fits.get(m.attribute, 0.0):
+            fits[m.attribute] = credit
     total = got = 0.0
     parts, warnings, missing_critical = [], [], []
-    for req in job.requirements:
-        weight = req.importance * (CRITICAL_MULTIPLIER if req.critical else 1.0)
-        credit = fits.get(req.attribute, 0.0)
+    for attribute, weight, critical, words in ctx.requirements:
+        credit = fits.get(attribute, 0.0)
         total += weight
         got += weight * credit
-        parts.append(f"{req.attribute} {credit:g}x{weight:g}")
-        if req.critical and credit == 0:
-            missing_critical.append(req.attribute)
+        parts.append(words.get(credit) or f"{attribute} {credit:g}x{weight:g}")
+        if critical and credit == 0:
+            missing_critical.append(attribute)
     if missing_critical:
         names = ", ".join(f"'{a}'" for a in missing_critical)
         warnings.append(_w("critical_attribute_not_measured", f"critical attribute(s) not measured: {names}"))
@@ -95,24 +139,28 @@ VALIDITY_MAPPING = (
 )
 
 
-def _matches(value: str | None, allowed: list[str]) -> bool:
-    if not allowed:
+def _matches(value: str | None, allowed: frozenset[str] | None) -> bool:
+    if allowed is None:
         return True
     if value is None:
         return False
-    return value.strip().lower() in {a.strip().lower() for a in allowed}
+    return value.strip().lower() in allowed
 
 
-def select_studies(instrument: Instrument, policy: Policy) -> tuple[list[StudyUse], list[StudyUse]]:
+def select_studies(instrument: Instrument, policy: Policy, ctx: JobContext | None = None) -> tuple[list[StudyUse], list[StudyUse]]:
     """Split the instrument's validity studies into those used for this policy and those not."""
+    if ctx is not None and ctx.policy is policy:
+        criteria, families = ctx.criteria, ctx.families
+    else:
+        criteria, families = _lowered(policy.relevant_criteria), _lowered(policy.relevant_job_families)
     used, excluded = [], []
     for i, s in enumerate(instrument.validity):
         reason = ""
         if s.design not in CRITERION_DESIGNS:
             reason = f"{s.design} study: not a criterion-related validity coefficient"
-        elif not _matches(s.criterion, policy.relevant_criteria):
+        elif not _matches(s.criterion, criteria):
             reason = f"criterion '{s.criterion}' is not marked relevant for this job"
-        elif policy.relevant_job_families and not _matches(s.job_family, policy.relevant_job_families):
+        elif families is not None and not _matches(s.job_family, families):
             reason = (
                 "job family not stated" if s.job_family is None
                 else f"job family '{s.job_family}' is not marked relevant for this job"
@@ -122,7 +170,7 @@ def select_studies(instrument: Instrument, policy: Policy) -> tuple[list[StudyUs
         use = StudyUse(
             index=i, criterion=s.criterion, r=s.r, r_signed=s.r_signed, n=s.n, job_family=s.job_family,
             design=s.design, source=s.source, used=not reason,
-            reason=reason or ("used" + (" (sign reversed: lower criterion is better)" if s.lower_is_better else "")),
+            reason=reason or ("used (sign reversed: lower criterion is better)" if s.lower_is_better else "used"),
         )
         (excluded if reason else used).append(use)
     return used, excluded
@@ -130,23 +178,45 @@ def select_studies(instrument: Instrument, policy: Policy) -> tuple[list[StudyUs
 
 def validity_detail(instrument: Instrument, policy: Policy) -> ValidityDetail:
     """Synthesis of the relevant studies with the psychometrics engine's conservative rule."""
+    return validity_details([instrument], policy)[0]
+
+
+def validity_details(instruments: list[Instrument], policy: Policy, ctx: JobContext | None = None) -> list[ValidityDetail]:
+    """`validity_detail` of many instruments, with one grouped call to the psychometrics engine
+    (the same formulas, applied to every instrument's studies at once)."""
     from vetting.psychometrics import validity as pv
 
-    used, excluded = select_studies(instrument, policy)
-    detail = ValidityDetail(studies_used=used, studies_excluded=excluded)
-    if not used:
-        detail.rule = "no relevant criterion-related study"
-        return detail
-    rs = [u.r_signed for u in used]
-    ns = [u.n for u in used]
-    cons = pv.conservative_validity(rs, ns)
-    # For a single study the engine's conservative figure carries no meta-analysis; the
-    # bare-bones summary of one study still gives its r and sampling error for display.
-    detail.meta = cons.meta if cons.meta is not None else pv.bare_bones_meta(rs, ns)
-    detail.conservative = float(cons.value)
-    detail.rule = cons.rule + (f" (basis: {cons.basis}" + ("; floored at 0)" if cons.floored else ")"))
-    detail.se_mean_r = float(detail.meta.se_mean_r)
-    return detail
+    details: list[ValidityDetail] = []
+    rs: list[float] = []
+    ns: list[int] = []
+    sizes: list[int] = []
+    synthesised: list[ValidityDetail] = []
+    for instrument in instruments:
+        used, excluded = select_studies(instrument, policy, ctx)
+        detail = ValidityDetail(studies_used=used, studies_excluded=excluded)
+        details.append(detail)
+        if not used:
+            detail.rule = "no relevant criterion-related study"
+            continue
+        rs.extend([u.r_signed for u in used])
+        ns.extend([u.n for u in used])
+        sizes.append(len(used))
+        synthesised.append(detail)
+    if not synthesised:
+        return details
+    grouped = pv.grouped_validity(np.array(rs, dtype=float), np.array(ns, dtype=float), sizes)
+    # For a single study the conservative figure carries no meta-analysis; the bare-bones
+    # summary of one study still gives its r and sampling error for display.
+    metas = grouped.metas()
+    rule = pv.CONSERVATIVE_RULE + " (basis: "
+    for detail, meta, value, basis, floored in zip(
+        synthesised, metas, grouped.conservative.tolist(), grouped.basis.tolist(), grouped.floored.tolist()
+    ):
+        detail.meta = meta
+        detail.conservative = value
+        detail.rule = rule + basis + ("; floored at 0)" if floored else ")")
+        detail.se_mean_r = meta.se_mean_r
+    return details
 
 
 def validity_component(detail: ValidityDetail) -> tuple[Component, list[AppraisalWarning]]:
@@ -211,14 +281,15 @@ _OCCUPATION_STOPWORDS = frozenset({
 })
 
 
-def _occupation_tokens(text: str) -> set[str]:
+@functools.lru_cache(maxsize=4096)
+def _occupation_tokens(text: str) -> frozenset[str]:
     """Significant words, lower case, with a plural -s dropped ('operators' -> 'operator')."""
     words = re.findall(r"[a-z]+", text.lower())
     tokens = {w[:-1] if len(w) > 3 and w.endswith("s") and not w.endswith("ss") else w for w in words}
-    return tokens - _OCCUPATION_STOPWORDS
+    return frozenset(tokens - _OCCUPATION_STOPWORDS)
 
 
-def occupation_match(norm: NormGroup, job: Job, policy: Policy) -> str:
+def occupation_match(norm: NormGroup, job: Job, policy: Policy, ctx: JobContext | None = None) -> str:
     """'match', 'related', 'general' (no occupation stated) or 'other'.
 
     'match': every significant word of the norm's occupation appears in the job title or in one
@@ -228,7 +299,7 @@ def occupation_match(norm: NormGroup, job: Job, policy: Policy) -> str:
     occ = _occupation_tokens(norm.occupation or "")
     if not occ:
         return "general"
-    targets = [_occupation_tokens(job.title)] + [_occupation_tokens(f) for f in policy.relevant_job_families]
+    targets = _context(job, policy, ctx).targets
     if any(t and occ <= t for t in targets):
         return "match"
     if any(occ & t for t in targets):
@@ -236,10 +307,10 @@ def occupation_match(norm: NormGroup, job: Job, policy: Policy) -> str:
     return "other"
 
 
-def norm_suitability(norm: NormGroup, job: Job, policy: Policy, as_of: dt.date) -> tuple[float, str]:
+def norm_suitability(norm: NormGroup, job: Job, policy: Policy, as_of: dt.date, ctx: JobContext | None = None) -> tuple[float, str]:
     """0..1 suitability of one norm group for this job, and the figures in words."""
     age = norm_age(norm, as_of)
-    occ = occupation_match(norm, job, policy)
+    occ = occupation_match(norm, job, policy, ctx)
     words = f"'{norm.key}': {age} years old, {norm.scope}, n = {norm.n}, occupation {occ}"
     if age > policy.max_norm_age_years:
         return 0.0, words + f" (older than the policy's {policy.max_norm_age_years} years)"
@@ -250,18 +321,18 @@ def norm_suitability(norm: NormGroup, job: Job, policy: Policy, as_of: dt.date) 
     return (age_c + scope_c + size_c + occ_c) / 4.0, words
 
 
-def best_norm(job: Job, instrument: Instrument, policy: Policy, as_of: dt.date) -> tuple[NormGroup | None, float, str]:
+def best_norm(job: Job, instrument: Instrument, policy: Policy, as_of: dt.date, ctx: JobContext | None = None) -> tuple[NormGroup | None, float, str]:
     """The most suitable norm group: highest suitability, ties to the larger n, then the newer."""
     best: tuple[NormGroup | None, float, str] = (None, -1.0, "")
     for norm in instrument.norms:
-        value, words = norm_suitability(norm, job, policy, as_of)
+        value, words = norm_suitability(norm, job, policy, as_of, ctx)
         cand = (norm, value, words)
         if best[0] is None or (value, norm.n, norm.year) > (best[1], best[0].n, best[0].year):
             best = cand
     return best
 
 
-def norms_component(job: Job, instrument: Instrument, policy: Policy, as_of: dt.date) -> tuple[Component, list[AppraisalWarning]]:
+def norms_component(job: Job, instrument: Instrument, policy: Policy, as_of: dt.date, ctx: JobContext | None = None) -> tuple[Component, list[AppraisalWarning]]:
     if not instrument.norms:
         return (
             Component("norms", None, None, "no norm group recorded", NORMS_MAPPING),
@@ -271,7 +342,7 @@ def norms_component(job: Job, instrument: Instrument, policy: Policy, as_of: dt.
     ages = [norm_age(n, as_of) for n in instrument.norms]
     if min(ages) > policy.max_norm_age_years:
         warnings.append(_w("norms_too_old", f"every norm group is older than the policy allows ({policy.max_norm_age_years} years)"))
-    norm, value, words = best_norm(job, instrument, policy, as_of)
+    norm, value, words = best_norm(job, instrument, policy, as_of, ctx)
     return Component("norms", value, value, f"best group {words}", NORMS_MAPPING), warnings
 
 

@@ -40,9 +40,11 @@ from vetting.appraisal.types import (
     InstrumentAppraisal,
     Ranking,
     Robustness,
+    ValidityDetail,
     WeightFlip,
 )
 from vetting.records.domain import Instrument, Job
+from vetting.records.gcpause import gc_pause
 
 CONCENTRATION = 50.0
 #: Validity perturbations are normal draws truncated at +/- this many SEs (a probability of
@@ -88,8 +90,13 @@ def expected_impact_ratios(job: Job, instruments: list[Instrument]) -> list[floa
 
 
 def appraise(job: Job, instrument: Instrument, weights: dict[str, float], as_of: dt.date,
-             impact_ratio=comp._UNSET) -> InstrumentAppraisal:
-    """Gates, components, warnings and score of one instrument for one job (no rank, no p_best)."""
+             impact_ratio=comp._UNSET, *, detail: ValidityDetail | None = None,
+             ctx: comp.JobContext | None = None) -> InstrumentAppraisal:
+    """Gates, components, warnings and score of one instrument for one job (no rank, no p_best).
+
+    detail: the instrument's validity synthesis if already worked out (rank() does all of them
+    in one grouped call); ctx: the job's context, worked out once per ranking.
+    """
     policy = job.policy
     used_rel = choose_reliability(instrument)
     gates = evaluate_gates(job, instrument, policy, used_rel)
@@ -98,14 +105,15 @@ def appraise(job: Job, instrument: Instrument, weights: dict[str, float], as_of:
         if g.warning:
             warnings.append(AppraisalWarning(f"{g.name}_not_checked", g.warning))
 
-    c_cov, w = comp.coverage(job, instrument)
+    c_cov, w = comp.coverage(job, instrument, ctx)
     warnings += w
-    detail = comp.validity_detail(instrument, policy)
+    if detail is None:
+        detail = comp.validity_detail(instrument, policy)
     c_val, w = comp.validity_component(detail)
     warnings += w
     c_rel, w = comp.reliability_component(used_rel)
     warnings += w
-    c_norm, w = comp.norms_component(job, instrument, policy, as_of)
+    c_norm, w = comp.norms_component(job, instrument, policy, as_of, ctx)
     warnings += w
     c_fair, w, impact_ratio = comp.fairness_component(job, instrument, policy, impact_ratio)
     warnings += w
@@ -281,8 +289,14 @@ def rank(
     as_of = as_of or dt.date.today()
     policy = job.policy
     weights = normalised_weights(policy)
-    ratios = expected_impact_ratios(job, instruments)
-    results = [appraise(job, ins, weights, as_of, ratio) for ins, ratio in zip(instruments, ratios)]
+    with gc_pause():  # tens of thousands of small acyclic objects (see records.gcpause)
+        ctx = comp.JobContext(job)
+        ratios = expected_impact_ratios(job, instruments)
+        details = comp.validity_details(instruments, policy, ctx)
+        results = [
+            appraise(job, ins, weights, as_of, ratio, detail=detail, ctx=ctx)
+            for ins, ratio, detail in zip(instruments, ratios, details)
+        ]
 
     def order(r: InstrumentAppraisal):
         v = r.validity.conservative

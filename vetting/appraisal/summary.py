@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import datetime as dt
 
+import numpy as np
+
 from vetting.appraisal import components as comp
 from vetting.appraisal.gates import choose_reliability
 from vetting.appraisal.types import InstrumentSummary
@@ -18,29 +20,32 @@ from vetting.records.gcpause import gc_pause
 
 
 def summarise(instrument: Instrument, as_of: dt.date | None = None, policy: Policy | None = None) -> InstrumentSummary:
-    from vetting.psychometrics import validity as pv
-
-    return _summary(instrument, as_of or dt.date.today(), policy or Policy(), pv.conservative_validity)
+    return summarise_all([instrument], as_of, policy)[0]
 
 
 def summarise_all(instruments: list[Instrument], as_of: dt.date | None = None, policy: Policy | None = None) -> list[InstrumentSummary]:
-    """`summarise` for every instrument, with the shared set-up (date, policy, engine) done once."""
+    """`summarise` for every instrument, with the shared set-up (date, policy, engine) done once
+    and every conservative validity figure from one grouped call to the psychometrics engine
+    (the same call `components.validity_details` makes, so the figures equal the ranking's)."""
     from vetting.psychometrics import validity as pv
 
     as_of = as_of or dt.date.today()
     policy = policy or Policy()
-    conservative = pv.conservative_validity
     # many small objects and no cycles: the garbage collector would only rescan a large heap
     with gc_pause():
-        return [_summary(i, as_of, policy, conservative) for i in instruments]
+        used_by = [comp.select_studies(i, policy)[0] for i in instruments]
+        rs = [u.r_signed for used in used_by for u in used]
+        ns = [u.n for used in used_by for u in used]
+        sizes = [len(used) for used in used_by if used]
+        values = iter(pv.grouped_validity(np.array(rs, dtype=float), np.array(ns, dtype=float), sizes).conservative.tolist()
+                      if sizes else [])
+        return [_summary(i, as_of, used, next(values) if used else None) for i, used in zip(instruments, used_by)]
 
 
-def _summary(instrument: Instrument, as_of: dt.date, policy: Policy, conservative) -> InstrumentSummary:
+def _summary(instrument: Instrument, as_of: dt.date, used: list, validity: float | None) -> InstrumentSummary:
     rel = choose_reliability(instrument)
-    # The same figures as components.validity_detail (the same studies, the same engine call),
+    # The same figures as components.validity_details (the same studies, the same engine call),
     # without what the table does not show: the meta-analysis of a single study and the rule text.
-    used, _ = comp.select_studies(instrument, policy)
-    validity = float(conservative([u.r_signed for u in used], [u.n for u in used]).value) if used else None
     sc = instrument.sample_copy
     return InstrumentSummary(
         key=instrument.key,
