@@ -240,7 +240,7 @@ def worker(op: str, size: int, url: str, workdir: Path) -> dict:
         extra = {"cli_peak_mb": round(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024, 1)}
     else:
         raise SystemExit(f"unknown operation {op!r}")
-    return {"op": op, "size": size, "seconds": seconds, "runs": [round(r, 4) for r in runs],
+    return {"op": op, "size": size, "seconds": seconds, "runs": [round(r, 4) for r in runs if r is not None],
             "peak_mb": round(_peak_mb(), 1), "rss_before_mb": round(before, 1), **extra}
 
 
@@ -406,6 +406,17 @@ def _pg_database(base: str, name: str) -> str:
     return make_url(base).set(database=name).render_as_string(hide_password=False)
 
 
+def _pg_drop(base: str, name: str) -> None:
+    import psycopg
+
+    plain = base.replace("postgresql+psycopg://", "postgresql://", 1)
+    try:
+        with psycopg.connect(plain, autocommit=True) as conn:
+            conn.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+    except psycopg.Error as exc:  # a benchmark database left behind is not worth failing for
+        print(f"could not drop the benchmark database {name}: {exc}", file=sys.stderr)
+
+
 def _fit_exponent(points: list[tuple[int, float]]) -> float | None:
     """b in time ~ a * n^b, least squares on log-log (None with fewer than 2 sizes)."""
     pts = [(n, t) for n, t in points if n > 0 and t and t > 0]
@@ -523,6 +534,7 @@ def main(argv: list[str] | None = None) -> int:
     print(f"command: {' '.join([Path(sys.executable).name, *sys.argv])}", flush=True)
     workdir = Path(tempfile.mkdtemp(prefix="vetting-bench-"))
     results: list[dict] = []
+    pg_names: list[str] = []
     try:
         for n in sizes:
             gen = _run_worker("generate", n, "", workdir, args.timeout)
@@ -532,7 +544,10 @@ def main(argv: list[str] | None = None) -> int:
                   f"file {gen['file_mb']} MB)", flush=True)
             targets = [("sqlite", f"sqlite:///{workdir / f'bench-{n}.db'}")]
             if args.pg:
-                targets.append(("postgresql", _pg_database(args.pg, f"vetting_bench_{n}")))
+                # the process id keeps two runs against one server apart
+                pg_name = f"vetting_bench_{os.getpid()}_{n}"
+                pg_names.append(pg_name)
+                targets.append(("postgresql", _pg_database(args.pg, pg_name)))
             for backend, url in targets:
                 # the database is filled by the import; without it the other operations need one
                 needed = ["import"] + [o for o in ops if o != "import"]
@@ -559,6 +574,8 @@ def main(argv: list[str] | None = None) -> int:
             import shutil
 
             shutil.rmtree(workdir, ignore_errors=True)
+            for name in pg_names:
+                _pg_drop(args.pg, name)
         else:
             print(f"working folder kept: {workdir}")
 
