@@ -28,10 +28,22 @@ class BadInput(CommandError):
         super().__init__(message, EXIT_BAD_INPUT)
 
 
+_PLAIN_JSON = (str, int, bool, type(None))
+_FIELDS: dict[type, tuple[str, ...]] = {}
+
+
 def to_jsonable(value: Any) -> Any:
     """Convert dataclasses, dates, numpy scalars, tuples and NaN into plain JSON values."""
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: to_jsonable(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    kind = type(value)
+    if kind in _PLAIN_JSON:  # the common case first: most leaves are text and whole numbers
+        return value
+    if kind is float:
+        return None if value != value or value in (math.inf, -math.inf) else value
+    names = _FIELDS.get(kind)
+    if names is None and dataclasses.is_dataclass(value) and not isinstance(value, type):
+        names = _FIELDS[kind] = tuple(f.name for f in dataclasses.fields(value))
+    if names is not None:
+        return {name: to_jsonable(getattr(value, name)) for name in names}
     if isinstance(value, dict):
         return {str(k): to_jsonable(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
