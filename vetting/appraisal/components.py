@@ -65,7 +65,8 @@ class JobContext:
     families, the words of the job title). Every component gives the same result with or
     without one; passing one only saves the repeated work."""
 
-    __slots__ = ("job", "policy", "requirements", "criteria", "families", "targets")
+    __slots__ = ("job", "policy", "requirements", "positions", "zero_words", "total_weight", "critical",
+                 "criteria", "families", "targets")
 
     def __init__(self, job: Job, policy: Policy | None = None) -> None:
         self.job = job
@@ -81,6 +82,16 @@ class JobContext:
             for req in job.requirements
             for weight in (req.importance * (CRITICAL_MULTIPLIER if req.critical else 1.0),)
         ]
+        #: where each attribute sits among the requirements; the words of a 0 credit; the sum of
+        #: the weights (added in the job's order); the critical attributes in the job's order
+        self.positions: dict[str, list[int]] = {}
+        total = 0.0
+        for i, (attribute, weight, _, _) in enumerate(self.requirements):
+            self.positions.setdefault(attribute, []).append(i)
+            total += weight
+        self.total_weight = total
+        self.zero_words = [words[0.0] for _, _, _, words in self.requirements]
+        self.critical = [attribute for attribute, _, critical, _ in self.requirements if critical]
         #: lower-cased relevant criteria / job families (None: every one counts)
         self.criteria = _lowered(policy.relevant_criteria)
         self.families = _lowered(policy.relevant_job_families)
@@ -114,15 +125,19 @@ def coverage(job: Job, instrument: Instrument, ctx: JobContext | None = None) ->
         credit = FIT_CREDIT.get(m.fit, 0.0)
         if credit > fits.get(m.attribute, 0.0):
             fits[m.attribute] = credit
-    total = got = 0.0
-    parts, warnings, missing_critical = [], [], []
-    for attribute, weight, critical, words in ctx.requirements:
-        credit = fits.get(attribute, 0.0)
-        total += weight
+    # Only the required attributes the instrument measures add to the sum; adding them in the
+    # job's order gives the same sum, to the bit, as adding every requirement's weight x credit.
+    hits = sorted((i, credit) for attribute, credit in fits.items() for i in ctx.positions.get(attribute, ()))
+    got = 0.0
+    parts = list(ctx.zero_words)
+    requirements = ctx.requirements
+    for i, credit in hits:
+        attribute, weight, _, words = requirements[i]
         got += weight * credit
-        parts.append(words.get(credit) or f"{attribute} {credit:g}x{weight:g}")
-        if critical and credit == 0:
-            missing_critical.append(attribute)
+        parts[i] = words.get(credit) or f"{attribute} {credit:g}x{weight:g}"
+    total = ctx.total_weight
+    warnings = []
+    missing_critical = [a for a in ctx.critical if not fits.get(a)]
     if missing_critical:
         names = ", ".join(f"'{a}'" for a in missing_critical)
         warnings.append(_w("critical_attribute_not_measured", f"critical attribute(s) not measured: {names}"))
