@@ -23,6 +23,7 @@ from vetting.memo import render_docx, render_html, render_md
 from vetting.memo.build import MemoData, MemoError, gather, layout
 from vetting.memo.document import Document
 from vetting.records.errors import NotFound
+from vetting.records.gcpause import gc_pause
 
 FORMATS = ("md", "html", "docx")
 _HEX64 = re.compile(r"^[0-9a-fA-F]{64}$")
@@ -140,12 +141,18 @@ def make_memo(
         raise MemoError(f"--format: unknown format {fmt!r}; use one of {', '.join(FORMATS)}")
     target = check_output_path(out)
     status = "final" if final else "draft"
-    data = gather(
-        store, job_key, choose=choose, override=override, by=by, status=status,
-        as_of=as_of, now=now, draws=draws, seed=seed,
-    )
-    doc = layout(data)
-    payload = render(doc, fmt)
+    # The memo builds a few hundred thousand small objects per thousand instruments (records,
+    # engine results, document rows, Word XML) and none of them forms a reference cycle that
+    # needs collecting while it runs: with the collector on, each full collection walked the
+    # whole catalogue again (about half the time at 10,000 instruments). Paused as the records
+    # layer pauses it for bulk reads (counted, so another thread's pause is respected).
+    with gc_pause():
+        data = gather(
+            store, job_key, choose=choose, override=override, by=by, status=status,
+            as_of=as_of, now=now, draws=draws, seed=seed,
+        )
+        doc = layout(data)
+        payload = render(doc, fmt)
     pending = _PendingFile(target, payload)
     decision_id = None
     try:

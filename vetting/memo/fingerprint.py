@@ -68,7 +68,13 @@ def _plain(value: Any) -> Any:
 
 
 def canonical_json(value: Any) -> str:
-    return json.dumps(_plain(value), sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False)
+    return _encode(_plain(value))
+
+
+def _encode(plain: Any) -> str:
+    """canonical_json of data that is already plain (what _plain returns): _plain gives back the
+    same data when given its own result, so the second walk is skipped."""
+    return json.dumps(plain, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False)
 
 
 def sha256(text: str) -> str:
@@ -114,7 +120,8 @@ def compute(job: Job, policy: Policy, instruments: list[Instrument]) -> Fingerpr
     }
     for inst in instruments:
         payloads[f"instrument:{inst.key}"] = instrument_record(inst)
-    texts = {name: canonical_json(p) for name, p in sorted(payloads.items())}
+    # the payloads are plain already: encoded without a second walk (the same text)
+    texts = {name: _encode(p) for name, p in sorted(payloads.items())}
     records = {name: sha256(text) for name, text in texts.items()}
     # the canonical JSON of {"format": ..., "records": payloads}, put together from the texts
     # already made (keys sorted, no whitespace: exactly what canonical_json would write)

@@ -64,6 +64,23 @@ def _repeat_header(row) -> None:
     row._tr.get_or_add_trPr().append(parse_xml(f'<w:tblHeader {nsdecls("w")}/>'))
 
 
+class _State:
+    """What one rendering keeps between blocks. `reference` renders through python-docx's own
+    public calls only (slow at thousands of rows); the default path writes the same XML with
+    the shortcuts below, and tests/memo/test_docx_equivalence.py checks the two byte for byte."""
+
+    def __init__(self, reference: bool) -> None:
+        self.reference = reference
+        self.paragraphs: dict = {}  # style name -> an empty paragraph of that style, to copy
+        self.table_style_id: str | None = None
+        self.block_width = None  # the text width, as python-docx's Document.add_table uses it
+        self.next_shape_id: int | None = None  # the next drawing id, as StoryPart.next_id gives it
+
+
+def _state(doc) -> _State:
+    return doc.__dict__["_vetting_state"]
+
+
 def _para(doc, text: str, style: str):
     """doc.add_paragraph(text, style=style), writing the same XML faster: python-docx looks the
     style up (searching every style for the default one) and finds the paragraph's place anew
@@ -72,9 +89,12 @@ def _para(doc, text: str, style: str):
     from docx.enum.style import WD_STYLE_TYPE
     from docx.text.paragraph import Paragraph as DocxParagraph
 
+    st = _state(doc)
+    if st.reference:
+        return doc.add_paragraph(text, style=style)
     # an empty styled paragraph per style, copied for each new one (python-docx would otherwise
     # search the body's children for where to put every paragraph and build its properties anew)
-    protos = doc.__dict__.setdefault("_vetting_paragraphs", {})
+    protos = st.paragraphs
     if style not in protos:
         p = doc.add_paragraph()
         style_id = doc.part.get_style_id(style, WD_STYLE_TYPE.PARAGRAPH)
@@ -91,8 +111,92 @@ def _para(doc, text: str, style: str):
             body.append(p_el)
         p = DocxParagraph(p_el, doc._body)
     if text:
-        p.add_run(text)
+        _set_run_text(p._p.add_r(), text)  # p.add_run(text), the same XML
     return p
+
+
+def _new_table(doc, rows: int, cols: int):
+    """doc.add_table(rows, cols): python-docx finds the text width anew from the last section
+    for every table (an XPath search over the whole body); here it is found once."""
+    st = _state(doc)
+    if st.reference:
+        return doc.add_table(rows=rows, cols=cols)
+    return doc._body.add_table(rows, cols, st.block_width)  # style None: no w:tblStyle, as there
+
+
+def _style_table(doc, t) -> None:
+    """t.style = doc.styles[TABLE_STYLE], with the style looked up once per document."""
+    from docx.enum.style import WD_STYLE_TYPE
+
+    st = _state(doc)
+    if st.reference:
+        t.style = doc.styles[TABLE_STYLE]
+        return
+    if st.table_style_id is None:
+        st.table_style_id = doc.part.get_style_id(doc.styles[TABLE_STYLE], WD_STYLE_TYPE.TABLE)
+    t._tbl.tblStyle_val = st.table_style_id
+
+
+def _add_picture(doc, stream, width):
+    """doc.add_picture(stream, width=width); returns the picture's paragraph. python-docx finds
+    the next drawing id by reading every id attribute of the whole document (XPath //@id) and
+    the text width from the last section; here both are kept as the document is written."""
+    from docx.oxml.shape import CT_Inline
+
+    st = _state(doc)
+    if st.reference:
+        doc.add_picture(stream, width=width)
+        return doc.paragraphs[-1]
+    p = doc.add_paragraph()
+    run = p.add_run()
+    part = doc.part
+    # StoryPart.new_pic_inline, with the id counted here (no other element of ours has an id)
+    r_id, image = part.get_or_add_image(stream)
+    cx, cy = image.scaled_dimensions(width, None)
+    shape_id = st.next_shape_id
+    st.next_shape_id += 1
+    run._r.add_drawing(CT_Inline.new_pic_inline(shape_id, r_id, image.filename, cx, cy))
+    return p
+
+
+_W = "{http://schemas.openxmlformats.org/wordprocessingml/2006/main}"
+_RPR = _W + "rPr"
+_R = _W + "r"
+_T = _W + "t"
+_XML_SPACE = "{http://www.w3.org/XML/1998/namespace}space"
+_BREAKS = frozenset("\t\r\n")
+
+
+def _set_run_text(r, text: str) -> None:
+    """`r.text = text` for a `w:r` element, writing the same XML as python-docx's setter without
+    its character-by-character walk (thousands of table cells made that walk, and the XPath
+    queries around it, the largest part of the Word memo's time). Text holding tabs or line
+    breaks, which python-docx turns into `w:tab`/`w:br` elements, takes python-docx's own path."""
+    if not _BREAKS.isdisjoint(text):
+        r.text = text
+        return
+    t = None
+    for child in list(r):
+        tag = child.tag
+        if tag == _RPR or not isinstance(tag, str):
+            continue
+        if tag == _T and t is None and text:
+            t = child  # reuse the first w:t; everything else but w:rPr goes
+        else:
+            r.remove(child)
+    if not text:
+        return
+    if t is None:
+        from docx.oxml.parser import OxmlElement
+
+        t = OxmlElement("w:t")  # as python-docx makes it
+        r.append(t)
+    t.text = text
+    # python-docx: xml:space="preserve" exactly when the text has leading or trailing space
+    if len(text.strip()) < len(text):
+        t.set(_XML_SPACE, "preserve")
+    elif t.get(_XML_SPACE) is not None:
+        del t.attrib[_XML_SPACE]
 
 
 def _add_table(doc, table: Table) -> None:
@@ -102,8 +206,8 @@ def _add_table(doc, table: Table) -> None:
     if table.caption:
         cap = _para(doc, _t(table.caption), "Caption")
         cap.paragraph_format.keep_with_next = True
-    t = doc.add_table(rows=1, cols=len(table.columns))
-    t.style = doc.styles[TABLE_STYLE]
+    t = _new_table(doc, 1, len(table.columns))
+    _style_table(doc, t)
     t.autofit = True
     # plain first column: this style would otherwise bold it like a header
     tbl_look = t._tbl.tblPr.find("{http://schemas.openxmlformats.org/wordprocessingml/2006/main}tblLook")
@@ -136,21 +240,31 @@ def _add_table(doc, table: Table) -> None:
     # thousand candidates that was most of the Word memo's time)
     full = len(table.columns)
     proto = None
+    tbl = t._tbl
+    fast = not _state(doc).reference
     for values in table.rows:
         if proto is not None and len(values) == full:
             tr = copy.deepcopy(proto)
-            for tc, value in zip(tr.tc_lst, values):
-                tc.p_lst[0].r_lst[0].text = _t(value)
-            t._tbl.append(tr)
+            # the copy's runs, one per cell in cell order (checked on the first full row)
+            for r, value in zip(tr.iter(_R), values):
+                _set_run_text(r, _t(value))
+            tbl.append(tr)
             continue
         row = t.add_row()
         fill(row, values)
-        if len(values) == full:
+        if fast and len(values) == full and _one_run_per_cell(row._tr):
             proto = row._tr
     t.autofit = False
     for i, width in enumerate(widths):
         t.columns[i].width = width
     doc.add_paragraph().paragraph_format.space_after = Pt(2)
+
+
+def _one_run_per_cell(tr) -> bool:
+    """Whether the row's runs, in document order, are exactly the first run of each cell's
+    first paragraph (what `cell.text = ...` makes), so copies can be filled run by run."""
+    firsts = [tc.p_lst[0].r_lst[0] if tc.p_lst and tc.p_lst[0].r_lst else None for tc in tr.tc_lst]
+    return None not in firsts and list(tr.iter(_R)) == firsts
 
 
 #: Text width of an A4 page with 2 cm margins.
@@ -167,14 +281,15 @@ def _column_widths(table: Table, chars_per_cm: float = 5.6):
     n = len(table.columns)
     floors, wishes, short = [], [], []
     for i, name in enumerate(table.columns):
-        body = [row[i] for row in table.rows if i < len(row)]
-        cells = [name] + body
-        longest_word = max((len(w) for c in cells for w in str(c).split()), default=1)
-        longest_cell = max((len(str(c)) for c in cells), default=1)
+        body = [str(row[i]) for row in table.rows if i < len(row)]
+        cells = [str(name)] + body
+        # the words of all cells at once (joined by a space, split on whitespace: the same words)
+        longest_word = max(map(len, " ".join(cells).split()), default=1)
+        longest_cell = max(map(len, cells), default=1)
         floors.append(min(max(longest_word, 3), 16) + 1)
         wishes.append(min(max(longest_cell, 4), 60) + 1)
         # short: the body holds only short items (numbers, PASS/FAIL), whatever the header says
-        short.append(max((len(str(c)) for c in body), default=1) <= 9)
+        short.append(max(map(len, body), default=1) <= 9)
     # chars_per_cm: about 5.6 for 8.5 pt text, bold headers included
     padding_cm = 0.40  # the cell's left and right margins
     avail = (TEXT_WIDTH_CM - n * padding_cm) * chars_per_cm
@@ -212,7 +327,7 @@ def _add_block(doc, block) -> None:
         for item in block.items:
             _para(doc, _t(item), "List Bullet")
     elif isinstance(block, Facts):
-        t = doc.add_table(rows=0, cols=2)
+        t = _new_table(doc, 0, 2)
         for label, value in block.rows:
             cells = t.add_row().cells
             cells[0].text = ""
@@ -229,7 +344,7 @@ def _add_block(doc, block) -> None:
         _add_table(doc, block)
     elif isinstance(block, Callout):
         kind = block.kind if block.kind in _CALLOUT_FILL else "note"
-        t = doc.add_table(rows=1, cols=1)
+        t = _new_table(doc, 1, 1)
         cell = t.rows[0].cells[0]
         _keep_row_together(t.rows[0])
         _shade(cell, _CALLOUT_FILL[kind], _CALLOUT_EDGE[kind])
@@ -240,8 +355,7 @@ def _add_block(doc, block) -> None:
         doc.add_paragraph().paragraph_format.space_after = Pt(2)
     elif isinstance(block, Figure):
         png = charts.to_png(block.chart)
-        doc.add_picture(io.BytesIO(png), width=Inches(6.2))
-        doc.paragraphs[-1].paragraph_format.keep_with_next = True
+        _add_picture(doc, io.BytesIO(png), Inches(6.2)).paragraph_format.keep_with_next = True
         _para(doc, _t(block.caption), "Caption")
     else:
         raise TypeError(f"unknown block {type(block).__name__}")
@@ -265,11 +379,14 @@ def _page_field(paragraph) -> None:
     run._r.append(parse_xml(f'<w:fldChar {nsdecls("w")} w:fldCharType="end"/>'))
 
 
-def render(doc_model: Document) -> bytes:
+def render(doc_model: Document, *, reference: bool = False) -> bytes:
+    """The Word file. `reference=True` builds it through python-docx's public calls only (the
+    same bytes, much slower at scale; used by the tests to check the default path)."""
     import docx
     from docx.shared import Cm, Pt, RGBColor
 
     doc = docx.Document()
+    st = doc.__dict__["_vetting_state"] = _State(reference)
     sec = doc.sections[0]
     sec.page_height, sec.page_width = Cm(29.7), Cm(21.0)  # A4
     sec.left_margin = sec.right_margin = Cm(2.0)
@@ -286,12 +403,21 @@ def render(doc_model: Document) -> bytes:
         style.paragraph_format.space_before = Pt(12 if name == "Heading 1" else 8)
         style.paragraph_format.keep_with_next = True
 
+    st.block_width = doc._block_width
+    st.next_shape_id = doc.part.next_id  # the body is still empty: a cheap search here
+
     doc.add_heading(_t(doc_model.title), level=0)
     doc.add_paragraph(_t(doc_model.subtitle), style="Subtitle")
     for section in doc_model.sections:
         _add_section(doc, section, 1)
 
-    footer = sec.footer.paragraphs[0]
+    footer = sec.footer
+    if not reference:
+        # the footer of the first (only) section gets its own definition, exactly as reading
+        # footer.paragraphs would make it, without python-docx first searching the whole body
+        # for an earlier section to inherit from (XPath preceding::w:sectPr)
+        footer.is_linked_to_previous = False
+    footer = footer.paragraphs[0]
     fp = str(doc_model.stamp.get("fingerprint", ""))
     run = footer.add_run(_t(f"{doc_model.title} · {doc_model.status} · fingerprint {fp[:16]}… · page "))
     run.font.size = Pt(7.5)

@@ -1,0 +1,121 @@
+"""The memo's fast paths write exactly what the plain library calls write.
+
+Word: `render_docx.render(doc)` takes shortcuts around python-docx (copied table rows, run text
+set without python-docx's character walk, drawing ids and the text width kept instead of
+searched for, the footer defined directly); `render(doc, reference=True)` builds the same
+document through python-docx's public calls only (`add_paragraph(text, style=)`, `add_table`,
+`add_row` + `cell.text`, `add_picture`, `section.footer.paragraphs`). The reference is the
+library itself, so the two files must hold the same parts with the same bytes.
+
+Fingerprint: each record's digest must be SHA-256 (hashlib) of the canonical JSON that the
+standard library writes from `dataclasses.asdict` (keys sorted, no whitespace, ASCII, ISO dates,
+whole-number floats as integers): the definition in docs/memo.md, computed here the slow, plain
+way on a seeded synthetic catalogue.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import hashlib
+import io
+import json
+import zipfile
+
+import pytest
+
+from vetting.memo import fingerprint as fpm
+from vetting.memo import render_docx
+from vetting.memo.build import gather, layout
+from vetting.memo.document import BulletList, Document, Figure, Paragraph, Table
+from vetting.records.store import Store
+from vetting.records.synthetic import generate_catalogue
+
+from tests.memo.test_render import _doc
+
+AS_OF = dt.date(2026, 11, 1)
+NOW = dt.datetime(2026, 11, 1, 12, 0, tzinfo=dt.timezone.utc)
+
+
+def _parts(data: bytes) -> dict[str, bytes]:
+    with zipfile.ZipFile(io.BytesIO(data)) as z:
+        return {name: z.read(name) for name in z.namelist()}
+
+
+def _same_docx(doc: Document) -> None:
+    fast = _parts(render_docx.render(doc))
+    plain = _parts(render_docx.render(doc, reference=True))
+    assert sorted(fast) == sorted(plain)
+    for name in plain:
+        assert fast[name] == plain[name], name
+
+
+@pytest.fixture(scope="module")
+def synthetic_store(tmp_path_factory):
+    url = f"sqlite:///{tmp_path_factory.mktemp('eq') / 'eq.db'}"
+    with Store.open(url, user="eq-tester") as store:
+        store.import_catalogue(generate_catalogue(60, seed=11), source="synthetic")
+        yield store
+
+
+def test_word_fast_path_matches_python_docx_on_a_synthetic_memo(synthetic_store):
+    key = sorted(synthetic_store.job_keys())[0]
+    doc = layout(gather(synthetic_store, key, as_of=AS_OF, now=NOW, by="Eq Tester", draws=200))
+    assert any(isinstance(b, Figure) for s in doc.sections for b in s.blocks)  # pictures included
+    _same_docx(doc)
+
+
+def test_word_fast_path_matches_python_docx_on_awkward_cells():
+    doc = _doc()
+    s = doc.section("awkward", "Awkward cells")
+    rows = [
+        ["", " leading space", "trailing space ", "x"],  # the first full row (copied) has an empty cell
+        [" now text", "", "tab\there", "line\nbreak"],  # text where the copied cell had none
+        ["carriage\rreturn", "plain", "  ", " y"],  # space kept / dropped against the copied cell
+        ["short"],  # a short row: filled by python-docx itself
+        ["a", "b", "c", "bell\x07nul\x00"],
+    ]
+    s.add(Table(["One", "Two", "Three", "Four"], rows, caption="Odd text", numeric={3}))
+    s.add(Paragraph(" leading and\ttab"))
+    s.add(BulletList([" spaced item ", "plain item", "", "tab\titem"]))
+    _same_docx(doc)
+
+
+def _reference_digest(record) -> str:
+    text = json.dumps(_fix_all(record), sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def test_fingerprint_digests_match_the_plain_definition():
+    cat = generate_catalogue(120, seed=5)
+    job = cat.jobs[0]
+    fp = fpm.compute(job, job.policy, cat.instruments)
+    for inst in cat.instruments:
+        rec = dataclasses.asdict(inst)
+        rec.pop("row_version")
+        assert fp.records[f"instrument:{inst.key}"] == _reference_digest(rec)
+    rec = dataclasses.asdict(job)
+    for skipped in ("row_version", "first_ranked_at", "policy"):
+        rec.pop(skipped)
+    assert fp.records[f"job:{job.key}"] == _reference_digest(rec)
+    assert fp.records[f"policy:{job.key}"] == _reference_digest(dataclasses.asdict(job.policy))
+    # the whole fingerprint: SHA-256 of {"format": 1, "records": {name: record}}
+    records = {f"instrument:{i.key}": {k: v for k, v in dataclasses.asdict(i).items() if k != "row_version"}
+               for i in cat.instruments}
+    records[f"job:{job.key}"] = rec
+    records[f"policy:{job.key}"] = dataclasses.asdict(job.policy)
+    whole = json.dumps({"format": 1, "records": _fix_all(records)}, sort_keys=True, separators=(",", ":"),
+                       ensure_ascii=True)
+    assert fp.value == hashlib.sha256(whole.encode("utf-8")).hexdigest()
+
+
+def _fix_all(v):
+    if isinstance(v, float) and v.is_integer():
+        return int(v)
+    if isinstance(v, (dt.date, dt.datetime)):
+        return v.isoformat()
+    if isinstance(v, dict):
+        return {k: _fix_all(x) for k, x in v.items()}
+    if isinstance(v, list):
+        return [_fix_all(x) for x in v]
+    return v
