@@ -3,7 +3,7 @@
     with open_store(args) as store:
         ...
 
-Inside the block, NotFound, KeyConflict, CatalogueError and ConcurrentEdit become a
+Inside the block, NotFound, KeyConflict, CatalogueError, ConcurrentEdit and BadDatabaseURL become a
 CommandError with exit status 2 (bad input); DatabaseUnavailable and any other RecordsError
 become exit status 1. Use `records_errors()` alone to wrap work that has no store.
 """
@@ -15,13 +15,13 @@ from contextlib import contextmanager
 from typing import TYPE_CHECKING, Any
 
 from vetting.cli.common import EXIT_BAD_INPUT, EXIT_FAILURE, CommandError
-from vetting.records.errors import CatalogueError, ConcurrentEdit, KeyConflict, NotFound, RecordsError
+from vetting.records.errors import BadDatabaseURL, CatalogueError, ConcurrentEdit, KeyConflict, NotFound, RecordsError
 from vetting.records.location import resolve_url
 
 if TYPE_CHECKING:  # imported inside open_store so `vetting --help` need not load SQLAlchemy
     from vetting.records.store import Store
 
-BAD_INPUT_ERRORS = (NotFound, KeyConflict, CatalogueError, ConcurrentEdit)
+BAD_INPUT_ERRORS = (NotFound, KeyConflict, CatalogueError, ConcurrentEdit, BadDatabaseURL)
 
 
 def status_for(exc: RecordsError) -> int:

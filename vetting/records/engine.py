@@ -21,7 +21,7 @@ from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ArgumentError, SQLAlchemyError
 from sqlalchemy.pool import StaticPool
 
-from vetting.records.errors import DatabaseUnavailable
+from vetting.records.errors import BadDatabaseURL, DatabaseUnavailable
 
 MIGRATIONS_DIR = Path(__file__).resolve().parent / "migrations"
 BUSY_TIMEOUT_MS = 30_000
@@ -73,7 +73,7 @@ def make_engine(url: str) -> Engine:
     try:
         u = make_url(url)
     except ArgumentError as exc:
-        raise DatabaseUnavailable(f"not a database URL: {url!r} ({exc})") from None
+        raise BadDatabaseURL(f"not a database URL: {url!r} ({exc})") from None
     backend = u.get_backend_name()
     kwargs: dict[str, Any] = {}
     if backend == "sqlite":
@@ -88,6 +88,11 @@ def make_engine(url: str) -> Engine:
         kwargs["connect_args"] = {"connect_timeout": 10}
     try:
         engine = create_engine(u, **kwargs)
+    except ArgumentError as exc:  # an unknown kind of database ("Can't load plugin ...")
+        raise BadDatabaseURL(
+            f"cannot use database {u.render_as_string(hide_password=True)}: {exc} "
+            "(use sqlite:///PATH or postgresql://USER@HOST/NAME)"
+        ) from None
     except (ImportError, SQLAlchemyError) as exc:
         raise DatabaseUnavailable(f"cannot use database {u.render_as_string(hide_password=True)}: {exc}") from None
     if backend == "sqlite":

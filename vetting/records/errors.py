@@ -34,6 +34,11 @@ class DatabaseUnavailable(RecordsError):
     """The database cannot be opened or written (read-only file, full disk, bad URL)."""
 
 
+class BadDatabaseURL(DatabaseUnavailable):
+    """The database location given is not a usable database URL (a malformed URL or an unknown
+    kind of database): a mistake in what the user typed, not a failure of the database."""
+
+
 @dataclass(frozen=True)
 class Problem:
     """One thing wrong with an input file: FILE:LINE: path.to.field: message."""
