@@ -15,6 +15,7 @@ Screens are reached by name with `VettingApp.go(name)`:
 from __future__ import annotations
 
 import datetime as dt
+import gc
 import importlib
 from collections.abc import Callable, Iterable
 from functools import partial
@@ -37,6 +38,10 @@ RESULT_SCREENS: dict[str, tuple[str, str]] = {
 
 #: Every screen name reachable with `go`, in the order of their keys.
 SCREEN_NAMES = ("catalogue", "jobs", *RESULT_SCREENS, "help")
+
+#: the cyclic garbage collector's first threshold while the interface runs (Python's default
+#: is 700; see VettingApp._tune_collector)
+GC_FIRST_THRESHOLD = 20_000
 
 DARK_THEME = "textual-dark"
 LIGHT_THEME = "textual-light"
@@ -122,12 +127,14 @@ class VettingApp(App[int]):
         #: the job the results screens work on (set by the Jobs screen)
         self.current_job: str | None = None
         self.theme = DARK_THEME
+        self._heap_frozen = False
 
     # -- lifecycle ---------------------------------------------------------------------------
 
     def on_mount(self) -> None:
         from vetting.tui.screens.catalogue import CatalogueScreen
 
+        self._tune_collector()
         self.push_screen(CatalogueScreen())
         self._pick_default_job()
 
@@ -146,12 +153,48 @@ class VettingApp(App[int]):
         if self.current_job is None:
             self.current_job = key
 
+    def freeze_long_lived(self) -> None:
+        """Exempt what is loaded by now from the cyclic garbage collector's full scans.
+
+        Called once, when the catalogue is first read in full. By then the heap holds about
+        200,000 long-lived objects (the libraries' modules, functions and types, and one row per
+        instrument); without this, every full collection rescans all of them (about 0.15 s here),
+        and building one screen's widgets allocates enough to start one, so opening the editor
+        or another screen stalled for that long. Frozen objects are still freed by reference
+        counting when dropped (a reloaded catalogue's old rows hold no cycles); only cyclic
+        garbage among them would stay, so this is done once, not after every load.
+        """
+        if not self._heap_frozen:
+            self._heap_frozen = True
+            gc.freeze()
+
+    def _tune_collector(self) -> None:
+        """Collect young objects less often while the interface runs (restored on exit).
+
+        Building a screen allocates tens of thousands of objects that live as long as the
+        screen; with the default first threshold (700) they are scanned again and again and
+        pushed into the older generations, which then fill up and start full collections in
+        the middle of a key press. A first threshold of 20,000 lets most of them settle or die
+        young; the older generations keep their defaults' ratios, so garbage stays bounded.
+        """
+        self._old_gc_threshold = gc.get_threshold()
+        gc.set_threshold(GC_FIRST_THRESHOLD, *self._old_gc_threshold[1:])
+
+    def _restore_collector(self) -> None:
+        old = getattr(self, "_old_gc_threshold", None)
+        if old is not None:
+            gc.set_threshold(*old)
+        if self._heap_frozen:  # hand the frozen objects back to the collector
+            gc.unfreeze()
+            self._heap_frozen = False
+
     def on_descendant_focus(self, event: events.DescendantFocus) -> None:
         if not self.cursor_blink and hasattr(event.widget, "cursor_blink"):
             event.widget.cursor_blink = False
 
     def on_unmount(self) -> None:
         self.data.close()
+        self._restore_collector()
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
         # Our own Quit asks before dropping unsaved changes and our own Keys screen lists every

@@ -232,6 +232,9 @@ class CatalogueScreen(Screen):
         self.loaded = True
         self._resort()
         self._apply_filter()
+        freeze = getattr(self.app, "freeze_long_lived", None)
+        if freeze is not None:
+            freeze()
 
     # -- filtering and sorting ---------------------------------------------------------------
 

@@ -93,15 +93,22 @@ class EditorScreen(Screen):
     async def _show_record(self, record: Any) -> None:
         self.original = record
         body = self.query_one("#body", Vertical)
-        await body.remove_children()
+        # Every section's tab and (empty) pane, and the first section's fields, are put together
+        # first and mounted at once: one layout pass instead of one per section.
         tabs = TabbedContent(id="sections")
-        await body.mount(tabs)
         self._builders = {}
+        built: list[str] = []
         for index, (pane_id, title, builder) in enumerate(self.sections()):
             self._builders[pane_id] = builder
-            await tabs.add_pane(TabPane(title, VerticalScroll(classes="section"), id=pane_id))
+            children = builder() if index == 0 or not self.LAZY else []
             if index == 0 or not self.LAZY:
-                await self.build_pane(pane_id)
+                self._initial_by_pane[pane_id] = ()  # building
+                built.append(pane_id)
+            tabs.compose_add_child(TabPane(title, VerticalScroll(*children, classes="section"), id=pane_id))
+        await body.remove_children()
+        await body.mount(tabs)
+        for pane_id in built:
+            self.call_after_refresh(self._remember, pane_id)
         self.ready = True
         self.call_after_refresh(self._after_show)
 

@@ -186,6 +186,12 @@ class RuleField(Widget):
         self.note: str | None = None
         #: "is required" on an untouched blank field waits until the first save attempt
         self.revealed = bool(text)
+        #: the text the last check() saw (the input reports its first value when mounted:
+        #: that is no change, and re-checking the whole record for it made opening a form
+        #: check every field once per field)
+        self._checked_text: str | None = None
+        self._input: Input
+        self._message: Static | None = None
 
     def compose(self) -> ComposeResult:
         spec = self.spec
@@ -194,7 +200,7 @@ class RuleField(Widget):
             yield Label(spec.title + mark, classes="field-label")
             choices = spec.choices()
             suggester = SuggestFromList(choices, case_sensitive=False) if choices else None
-            yield Input(
+            self._input = Input(
                 value=self.initial,
                 placeholder=spec.hint(),
                 suggester=suggester,
@@ -202,14 +208,16 @@ class RuleField(Widget):
                 disabled=self._disabled_input,
                 id=f"in-{spec.name}",
             )
-        yield Static("", classes="field-message", markup=False)
+            yield self._input
+        # the message line below the field is added the first time there is something to say
+        # (most fields never need one: fewer widgets make a form quicker to open)
 
     def on_mount(self) -> None:
         self.check()
 
     @property
     def input(self) -> Input:
-        return self.query_one(Input)
+        return self._input
 
     @property
     def text(self) -> str:
@@ -224,6 +232,7 @@ class RuleField(Widget):
         return convert(self.spec, self.text)
 
     def check(self) -> str | None:
+        self._checked_text = self.text
         try:
             convert(self.spec, self.text)
             self.own_error = None
@@ -233,10 +242,17 @@ class RuleField(Widget):
         return self.own_error
 
     def show(self) -> None:
-        message = self.query_one(".field-message", Static)
         problem = self.error
         if problem and not self.revealed and not self.text.strip():
             problem = None
+        message = self._message
+        if message is None:
+            if not (problem or self.note):
+                self.set_class(False, "-invalid")
+                self.input.set_class(False, "-invalid")
+                return
+            message = self._message = Static("", classes="field-message", markup=False)
+            self.mount(message)
         if problem:
             message.update(f"{ERROR_MARK} {self.spec.title} {problem}")
         elif self.note:
@@ -261,6 +277,8 @@ class RuleField(Widget):
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
+        if event.value == self._checked_text:
+            return  # already checked (the value the field was built with)
         if event.value != self.initial:
             self.revealed = True
         self.check()
