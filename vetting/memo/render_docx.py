@@ -75,6 +75,7 @@ class _State:
         self.table_style_id: str | None = None
         self.block_width = None  # the text width, as python-docx's Document.add_table uses it
         self.next_shape_id: int | None = None  # the next drawing id, as StoryPart.next_id gives it
+        self.sectPr = None  # the body's section properties, always its last child
 
 
 def _state(doc) -> _State:
@@ -93,25 +94,31 @@ def _para(doc, text: str, style: str):
     if st.reference:
         return doc.add_paragraph(text, style=style)
     # an empty styled paragraph per style, copied for each new one (python-docx would otherwise
-    # search the body's children for where to put every paragraph and build its properties anew)
+    # search the body's children for where to put every paragraph and build its properties
+    # anew), and one with a run of text, copied for each paragraph of plain text
     protos = st.paragraphs
-    if style not in protos:
+    plain = bool(text) and _BREAKS.isdisjoint(text)
+    proto = protos.get((style, plain))
+    if proto is None and style not in protos:
         p = doc.add_paragraph()
         style_id = doc.part.get_style_id(style, WD_STYLE_TYPE.PARAGRAPH)
         if style_id is not None:
             p._p.style = style_id
-        protos[style] = copy.deepcopy(p._p)
+        protos[style] = copy.copy(p._p)  # lxml: a copy of the whole element
     else:
-        body = doc.element.body
-        p_el = copy.deepcopy(protos[style])
-        sect = body.sectPr
-        if sect is not None:
-            sect.addprevious(p_el)
+        p_el = copy.copy(proto if proto is not None else protos[style])
+        if st.sectPr is not None:
+            st.sectPr.addprevious(p_el)  # python-docx: before the body's sectPr (its last child)
         else:
-            body.append(p_el)
+            doc.element.body.append(p_el)
         p = DocxParagraph(p_el, doc._body)
+        if proto is not None:
+            _set_run_text(p_el[-1], text)  # the copy's own run
+            return p
     if text:
         _set_run_text(p._p.add_r(), text)  # p.add_run(text), the same XML
+        if plain:
+            protos[(style, True)] = copy.copy(p._p)
     return p
 
 
@@ -175,6 +182,16 @@ def _set_run_text(r, text: str) -> None:
     if not _BREAKS.isdisjoint(text):
         r.text = text
         return
+    n = len(r)
+    if text and n and (n == 1 or (n == 2 and r[0].tag == _RPR)):
+        t = r[n - 1]
+        if t.tag == _T:  # the usual case in a copied row or paragraph: [w:rPr] w:t
+            t.text = text
+            if len(text.strip()) < len(text):
+                t.set(_XML_SPACE, "preserve")
+            elif _XML_SPACE in t.attrib:
+                del t.attrib[_XML_SPACE]
+            return
     t = None
     for child in list(r):
         tag = child.tag
@@ -244,7 +261,7 @@ def _add_table(doc, table: Table) -> None:
     fast = not _state(doc).reference
     for values in table.rows:
         if proto is not None and len(values) == full:
-            tr = copy.deepcopy(proto)
+            tr = copy.copy(proto)  # lxml: a copy of the whole row
             # the copy's runs, one per cell in cell order (checked on the first full row)
             for r, value in zip(tr.iter(_R), values):
                 _set_run_text(r, _t(value))
@@ -405,6 +422,7 @@ def render(doc_model: Document, *, reference: bool = False) -> bytes:
 
     st.block_width = doc._block_width
     st.next_shape_id = doc.part.next_id  # the body is still empty: a cheap search here
+    st.sectPr = doc.element.body.sectPr
 
     doc.add_heading(_t(doc_model.title), level=0)
     doc.add_paragraph(_t(doc_model.subtitle), style="Subtitle")
