@@ -152,85 +152,115 @@ def _mark_line(exc: yaml.YAMLError) -> int | None:
 
 
 def _read_tree(text: str, filename: str) -> _Node | None:
-    """Stream the YAML events into a tree, refusing anything a catalogue never needs."""
-    resolver = yaml.resolver.Resolver()
+    """Stream the YAML events into a tree, refusing anything a catalogue never needs.
+
+    This loop runs once per YAML event (about 250 per instrument), so it is written for speed:
+    scalars, by far the most common event, are handled first, and a mapping's field names are
+    kept as (text, line) without a node of their own. Every check happens in the same order
+    as events arrive, so the first problem in the file is the one reported."""
+    resolve = yaml.resolver.Resolver().resolve
     root: _Node | None = None
     stack: list[_Node] = []
     documents = 0
     scalar_event, seq_start, map_start = yaml.ScalarEvent, yaml.SequenceStartEvent, yaml.MappingStartEvent
-    collection_end = (yaml.SequenceEndEvent, yaml.MappingEndEvent)
+    seq_end, map_end, alias_event = yaml.SequenceEndEvent, yaml.MappingEndEvent, yaml.AliasEvent
+    document_start = yaml.DocumentStartEvent
+    scalar_node = yaml.ScalarNode
+    plain = (True, False)
+    allowed = _ALLOWED_SCALAR_TAGS
     str_tag = _T + "str"
     null_tag = _T + "null"
+    intern = sys.intern
+    max_chars = MAX_SCALAR_CHARS
     resolved: dict[str, str] = {}  # plain scalar -> its implicit tag (same text, same tag)
     budget = MAX_NODES
+    parent: _Node | None = None  # the innermost open collection (stack[-1])
+    loader = None
     try:
-        for event in yaml.parse(text, Loader=_Loader):
+        loader = _Loader(text)
+        for event in iter(loader.get_event, None):
             cls = type(event)
-            if cls in collection_end:
-                stack.pop()
-                continue
-            line = event.start_mark.line + 1 if event.start_mark is not None else None
-            if cls is yaml.AliasEvent:
-                raise _Stop(line, "YAML aliases (*name) are not allowed in a catalogue; write the value out in full")
-            if getattr(event, "anchor", None) is not None:
-                raise _Stop(line, "YAML anchors (&name) are not allowed in a catalogue; write each value out in full")
-            if cls is yaml.DocumentStartEvent:
-                documents += 1
-                if documents > 1:
-                    raise _Stop(line, "only one YAML document is allowed in a catalogue file (found a second '---')")
-                continue
             if cls is scalar_event:
+                mark = event.start_mark
+                line = mark.line + 1 if mark is not None else None
+                if event.anchor is not None:
+                    raise _Stop(line, "YAML anchors (&name) are not allowed in a catalogue; write each value out in full")
                 value = event.value
-                if len(value) > MAX_SCALAR_CHARS:
-                    raise _Stop(line, f"a value is too long ({len(value):,} characters; at most {MAX_SCALAR_CHARS:,})")
+                if len(value) > max_chars:
+                    raise _Stop(line, f"a value is too long ({len(value):,} characters; at most {max_chars:,})")
                 tag = event.tag
                 if tag is None or tag == "!":
                     if event.implicit[0]:
                         tag = resolved.get(value)
                         if tag is None:
-                            tag = resolver.resolve(yaml.ScalarNode, value, (True, False))
+                            tag = resolve(scalar_node, value, plain)
                             if len(resolved) < 10_000:
                                 resolved[value] = tag
                     else:
                         tag = str_tag  # quoted or block text: always a string
-                if tag not in _ALLOWED_SCALAR_TAGS:
+                if tag not in allowed:
                     if tag == _T + "merge":
                         raise _Stop(line, "YAML merge keys (<<) are not allowed in a catalogue; write each field out")
                     raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
                 if len(value) <= 40:
-                    value = sys.intern(value)  # field names and short values repeat a lot
-                node = _Scalar(tag, value, line or 0)
-            elif cls is seq_start or cls is map_start:
-                kind = "seq" if cls is seq_start else "map"
-                tag = event.tag
-                if tag not in (None, "!", _T + kind):
-                    raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
-                node = _Node(kind, line or 0)
-            else:
+                    value = intern(value)  # field names and short values repeat a lot
+                budget -= 1
+                if budget < 0:
+                    raise _Stop(
+                        line, f"the file holds too many values to be a catalogue (more than {MAX_NODES:,}); split it"
+                    )
+                if parent is None:
+                    root = _Scalar(tag, value, line or 0)
+                elif parent.kind == "seq":
+                    parent.items.append(_Scalar(tag, value, line or 0))
+                elif parent.pending is None:  # this scalar is a field name
+                    if tag == null_tag:
+                        raise _Stop(line, "field names must be plain words (found a list, mapping or empty name)")
+                    parent.pending = (value, line or 0)
+                else:
+                    parent.items.append((parent.pending[0], parent.pending[1], _Scalar(tag, value, line or 0)))
+                    parent.pending = None
                 continue
+            if cls is seq_end or cls is map_end:
+                stack.pop()
+                parent = stack[-1] if stack else None
+                continue
+            mark = event.start_mark
+            line = mark.line + 1 if mark is not None else None
+            if cls is alias_event:
+                raise _Stop(line, "YAML aliases (*name) are not allowed in a catalogue; write the value out in full")
+            if getattr(event, "anchor", None) is not None:
+                raise _Stop(line, "YAML anchors (&name) are not allowed in a catalogue; write each value out in full")
+            if cls is document_start:
+                documents += 1
+                if documents > 1:
+                    raise _Stop(line, "only one YAML document is allowed in a catalogue file (found a second '---')")
+                continue
+            if cls is not seq_start and cls is not map_start:
+                continue  # stream start/end, document end
+            kind = "seq" if cls is seq_start else "map"
+            tag = event.tag
+            if tag not in (None, "!", _T + kind):
+                raise _Stop(line, f"the YAML tag {tag!r} is not allowed in a catalogue; remove it")
+            node = _Node(kind, line or 0)
             budget -= 1
             if budget < 0:
                 raise _Stop(
                     line, f"the file holds too many values to be a catalogue (more than {MAX_NODES:,}); split it"
                 )
-            if stack:
-                parent = stack[-1]
-                if parent.kind == "seq":
-                    parent.items.append(node)
-                elif parent.pending is None:  # this node is a field name
-                    if node.kind != "scalar" or node.tag == null_tag:
-                        raise _Stop(line, "field names must be plain words (found a list, mapping or empty name)")
-                    parent.pending = (node.value, node.line)
-                    continue
-                else:
-                    parent.items.append((parent.pending[0], parent.pending[1], node))
-                    parent.pending = None
-            else:
+            if parent is None:
                 root = node
-            if node.kind != "scalar":
-                stack.append(node)
-                if len(stack) > MAX_DEPTH:
-                    raise _Stop(line, f"the document is nested too deeply (more than {MAX_DEPTH} levels); not a catalogue")
+            elif parent.kind == "seq":
+                parent.items.append(node)
+            elif parent.pending is None:  # a list or mapping where a field name belongs
+                raise _Stop(line, "field names must be plain words (found a list, mapping or empty name)")
+            else:
+                parent.items.append((parent.pending[0], parent.pending[1], node))
+                parent.pending = None
+            stack.append(node)
+            parent = node
+            if len(stack) > MAX_DEPTH:
+                raise _Stop(line, f"the document is nested too deeply (more than {MAX_DEPTH} levels); not a catalogue")
     except _Stop as stop:
         raise CatalogueError([Problem(filename, stop.line, "", stop.message)]) from None
     except yaml.reader.ReaderError as exc:
@@ -253,6 +283,9 @@ def _read_tree(text: str, filename: str) -> _Node | None:
         ) from None
     except (UnicodeError, ValueError) as exc:
         raise CatalogueError([Problem(filename, None, "", f"cannot read the file as YAML text: {exc}")]) from None
+    finally:
+        if loader is not None:
+            loader.dispose()
     return root
 
 
@@ -281,6 +314,42 @@ _CLASSES: dict[str, type] = {
 }
 
 _TEXTUAL_KINDS = {rules.TEXT, "key", "enum", "currency"}
+
+
+#: The common case of `_Checker.field_value` inlined (`_fast_value`); False runs every field
+#: through the general path (the tests compare the two).
+_FAST_PATH = True
+_FAST_KINDS = frozenset({rules.TEXT, "key", "enum", "currency", "int", "year", "number"})
+_PLAIN_INT_RE = re.compile(r"[-+]?(?:0|[1-9][0-9]*)\Z")
+_PLAIN_FLOAT_RE = re.compile(r"[-+]?[0-9]+\.[0-9]*(?:[eE][-+]?[0-9]+)?\Z")
+
+
+def _fast_value(node: _Scalar, rule: rules.Rule) -> Any:
+    """The value `_Checker.field_value` gives a non-null scalar of a text or number field when
+    the value passes its rule; `_BAD` for anything else (a problem, or a number written in a
+    form the plain decimal patterns do not cover), which then goes the general way and is
+    reported there exactly as before. Decimal integers and decimals read with int()/float()
+    give what PyYAML's constructors give for them (they only strip '_', a sign, and handle
+    0x/0o/leading-zero/sexagesimal forms, none of which these patterns match)."""
+    kind = rule.kind
+    if kind in _TEXTUAL_KINDS:
+        value = node.value
+        if rules.check_value(rule, value) is None:
+            return value
+        return _BAD
+    text = node.value
+    if len(text) > 30:
+        return _BAD  # huge numbers: the general path reports them
+    tag = node.tag
+    if tag == _T + "int" and _PLAIN_INT_RE.match(text):
+        value = int(text)
+    elif tag == _T + "float" and _PLAIN_FLOAT_RE.match(text):
+        value = float(text)
+    else:
+        return _BAD
+    if rules.check_value(rule, value) is not None:
+        return _BAD
+    return float(value) if kind == "number" else int(value)
 
 
 def _natural(node: _Node) -> Any:
@@ -366,6 +435,8 @@ class _Checker:
         if problem:
             self.add(node.line, path, problem)
             return _BAD
+        if value is None:  # `field: ~`, `field: null` or `field:` on an optional field: not given
+            return None
         if kind in ("int", "year"):
             return int(value)
         if kind == "number":
@@ -421,9 +492,19 @@ class _Checker:
         values: dict[str, Any] = {}
         lines: dict[str, int] = {}
         bad: set[str] = set()
+        fast = _FAST_PATH
         for name, key_line, value_node in self.pairs(node, path):
-            fpath = f"{path}.{name}" if path else name
             rule = table.get(name)
+            if (
+                fast and rule is not None and rule.kind in _FAST_KINDS
+                and value_node.kind == "scalar" and value_node.tag != _T + "null"
+            ):
+                value = _fast_value(value_node, rule)
+                if value is not _BAD:
+                    lines[name] = value_node.line
+                    values[name] = value
+                    continue
+            fpath = f"{path}.{name}" if path else name
             if rule is None:
                 hint = rules.suggest(name, list(table))
                 if hint:
@@ -465,7 +546,7 @@ class _Checker:
                     bad.add(name)
                 values[name] = items
                 continue
-            value = self.field_value(value_node, rule, fpath)
+            value = self.field_value(value_node, rule, fpath)  # anything unusual, and every problem
             if value is _BAD:
                 bad.add(name)
             elif value is not None:
@@ -571,19 +652,23 @@ class _Checker:
             references(job.get("requirements", []), f"jobs[{i}].requirements")
 
 
+#: entity -> its fields holding records: (field, entity of the record, True for a list)
+_NESTED: dict[str, tuple[tuple[str, str, bool], ...]] = {
+    entity: tuple(
+        (name, rule.entity, rule.kind == "list-entity")
+        for name, rule in table.items()
+        if rule.kind in ("entity", "list-entity")
+    )
+    for entity, table in rules.ENTITIES.items()
+}
+
+
 def _build(entity: str, values: dict[str, Any]) -> Any:
-    table = rules.ENTITIES[entity]
-    kwargs: dict[str, Any] = {}
-    for name, value in values.items():
-        if name.startswith("__"):
-            continue
-        rule = table[name]
-        if rule.kind == "entity":
-            kwargs[name] = _build(rule.entity, value)
-        elif rule.kind == "list-entity":
-            kwargs[name] = [_build(rule.entity, v) for v in value]
-        else:
-            kwargs[name] = value
+    kwargs = {name: value for name, value in values.items() if not name.startswith("__")}
+    for name, sub, many in _NESTED[entity]:
+        if name in kwargs:
+            value = kwargs[name]
+            kwargs[name] = [_build(sub, v) for v in value] if many else _build(sub, value)
     return _CLASSES[entity](**kwargs)
 
 
