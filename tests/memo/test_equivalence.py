@@ -74,6 +74,9 @@ def test_word_fast_path_matches_python_docx_on_awkward_cells():
         ["carriage\rreturn", "plain", "  ", " y"],  # space kept / dropped against the copied cell
         ["short"],  # a short row: filled by python-docx itself
         ["a", "b", "c", "bell\x07nul\x00"],
+        ["Zoë & <b>bold</b>", "\"quoted\" 'too'", "]]> &amp;", "\u2028 \x85 \U0001F600"],
+        ["p", "q", "r", "s"],
+        ["t", "u\tv", "w", "x"],
     ]
     s.add(Table(["One", "Two", "Three", "Four"], rows, caption="Odd text", numeric={3}))
     s.add(Paragraph(" leading and\ttab"))
