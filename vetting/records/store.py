@@ -77,19 +77,29 @@ def _utc(value: dt.datetime | None) -> dt.datetime | None:
 _PLAIN = (str, int, float, bool, type(None))
 
 
+#: exact types returned as they are without a call (an import snapshots every instrument:
+#: about 130 values each)
+_PLAIN_TYPES = frozenset(_PLAIN)
+
+
 def _jsonable(value: Any) -> Any:
     """A JSON-compatible snapshot of a domain object for the audit trail."""
-    if isinstance(value, _PLAIN):
+    plain = _PLAIN_TYPES
+    if type(value) in plain or isinstance(value, _PLAIN):
         return value
     if isinstance(value, (list, tuple)):
-        return [_jsonable(v) for v in value]
+        return [v if type(v) in plain else _jsonable(v) for v in value]
     if isinstance(value, dict):
-        return {str(k): _jsonable(v) for k, v in value.items()}
+        return {str(k): v if type(v) in plain else _jsonable(v) for k, v in value.items()}
     if isinstance(value, (dt.date, dt.datetime)):
         return value.isoformat()
     fields = getattr(type(value), "__dataclass_fields__", None)
     if fields is not None:
-        return {name: _jsonable(getattr(value, name)) for name in fields}
+        out = {}
+        for name in fields:
+            v = getattr(value, name)
+            out[name] = v if type(v) in plain else _jsonable(v)
+        return out
     return value
 
 
@@ -331,8 +341,7 @@ class Store:
 
     @staticmethod
     def _audit_many(s: Session, rows: list[dict]) -> None:
-        for start in range(0, len(rows), 2000):
-            s.execute(insert(AUDIT), rows[start:start + 2000])
+        instrument_io.insert_rows(s, AUDIT, rows)  # COPY on PostgreSQL, executemany elsewhere
 
     # -- attributes ------------------------------------------------------------
 
