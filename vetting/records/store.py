@@ -75,6 +75,8 @@ def _utc(value: dt.datetime | None) -> dt.datetime | None:
 
 
 _PLAIN = (str, int, float, bool, type(None))
+#: Session.info key: while set, Store._audit holds audit rows in this list instead of writing
+_AUDIT_HELD = "vetting_audit_held"
 
 
 #: exact types returned as they are without a call (an import snapshots every instrument:
@@ -337,7 +339,12 @@ class Store:
     def _audit(
         self, s: Session, action: str, entity: str, key: str, before: Any = None, after: Any = None
     ) -> None:
-        s.execute(insert(AUDIT), [self._audit_row(action, entity, key, before, after)])
+        row = self._audit_row(action, entity, key, before, after)
+        held = s.info.get(_AUDIT_HELD)
+        if held is not None:  # a bulk import: written together, in this order, before it commits
+            held.append(row)
+        else:
+            s.execute(insert(AUDIT), [row])
 
     @staticmethod
     def _audit_many(s: Session, rows: list[dict]) -> None:
@@ -714,6 +721,10 @@ class Store:
             0,
         )
         with self._write() as s:
+            # audit events of this import are held and written in one go at the end (one round
+            # trip instead of one per attribute and job)
+            held: list[dict] = []
+            s.info[_AUDIT_HELD] = held
             known = set(s.scalars(select(m.AttributeRow.key)).all()) | {a.key for a in cat.attributes}
             problems = []
             for i, inst in enumerate(cat.instruments):
@@ -768,7 +779,7 @@ class Store:
                 audit.append(
                     self._audit_row("update", "instrument", x.key, _catalogue_copy(befores[x.key]), _catalogue_copy(x))
                 )
-            self._audit_many(s, audit)
+            held.extend(audit)
             counts["created"] += len(new)
             counts["replaced"] += len(old)
             counts["instruments"] += len(cat.instruments)
@@ -785,6 +796,8 @@ class Store:
                     counts["replaced"] += 1
                 counts["jobs"] += 1
             self._audit(s, "import", "catalogue", source or "", None, dict(counts, replace=replace))
+            del s.info[_AUDIT_HELD]
+            self._audit_many(s, held)  # one bulk write (COPY on PostgreSQL), same order as before
         return counts
 
     @staticmethod
