@@ -67,6 +67,62 @@ def _plain(value: Any) -> Any:
     return value
 
 
+def _fields_for_json(value: Any) -> dict:
+    """A dataclass's fields for the JSON encoder (its `default` hook): the encoder writes
+    strings, numbers, lists and dicts itself and calls this for each dataclass it meets, so the
+    records are written without first being copied into plain dicts and lists. Field values
+    are made what _plain makes them (whole-number floats as integers, dates in ISO 8601...)
+    where the encoder would write them otherwise; the text is the same as canonical_json's."""
+    t = type(value)
+    names = _FIELDS.get(t)
+    if names is None:
+        names = _FIELDS[t] = (
+            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
+        )
+    if not names:
+        raise TypeError(f"Object of type {t.__name__} is not JSON serializable")
+    out = {}
+    for n in names:
+        v = getattr(value, n)
+        tv = type(v)
+        if tv is str or v is None or tv is int or tv is bool:
+            pass
+        elif tv is float:
+            if v.is_integer() and abs(v) < 2**53:
+                v = int(v)
+        elif tv is list:
+            if not all(k is str or _is_record_type(k) for k in set(map(type, v))):
+                v = _plain(v)
+        elif not _is_record_type(tv):
+            v = _plain(v)
+        # a dataclass (or a list of them, or of strings) is left to the encoder
+        out[n] = v
+    return out
+
+
+def _is_record_type(t: type) -> bool:
+    names = _FIELDS.get(t)
+    if names is None:
+        names = _FIELDS[t] = (
+            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
+        )
+    return bool(names)
+
+
+_RECORD_ENCODER = json.JSONEncoder(
+    sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False, default=_fields_for_json
+)
+
+
+def _record_json(record: Any, skip: set[str] | frozenset[str] = frozenset()) -> str:
+    """canonical_json of a domain record without the fields in `skip` (the same text as
+    canonical_json(instrument_record(...)) and the like)."""
+    fields = _fields_for_json(record)
+    for name in skip:
+        fields.pop(name, None)
+    return _RECORD_ENCODER.encode(fields)
+
+
 def canonical_json(value: Any) -> str:
     return _encode(_plain(value))
 
@@ -114,14 +170,15 @@ class Fingerprint:
 
 
 def compute(job: Job, policy: Policy, instruments: list[Instrument]) -> Fingerprint:
-    payloads: dict[str, Any] = {
-        f"job:{job.key}": job_record(job),
-        f"policy:{job.key}": policy_record(policy),
+    # each record's canonical JSON (canonical_json(job_record(job)) and so on), written by the
+    # JSON encoder straight from the dataclasses
+    texts = {
+        f"job:{job.key}": _record_json(job, _JOB_SKIP),
+        f"policy:{job.key}": _record_json(policy),
     }
     for inst in instruments:
-        payloads[f"instrument:{inst.key}"] = instrument_record(inst)
-    # the payloads are plain already: encoded without a second walk (the same text)
-    texts = {name: _encode(p) for name, p in sorted(payloads.items())}
+        texts[f"instrument:{inst.key}"] = _record_json(inst, _INSTRUMENT_SKIP)
+    texts = dict(sorted(texts.items()))
     records = {name: sha256(text) for name, text in texts.items()}
     # the canonical JSON of {"format": ..., "records": payloads}, put together from the texts
     # already made (keys sorted, no whitespace: exactly what canonical_json would write)
