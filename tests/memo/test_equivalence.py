@@ -1,4 +1,4 @@
-"""The memo's fast paths write exactly what the plain library calls write.
+"""The memo's fast paths write exactly what the plain library calls (and plain definitions) write.
 
 Word: `render_docx.render(doc)` takes shortcuts around python-docx (copied table rows, run text
 set without python-docx's character walk, drawing ids and the text width kept instead of
@@ -20,12 +20,15 @@ import datetime as dt
 import hashlib
 import io
 import json
+import re
 import zipfile
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from vetting.memo import fingerprint as fpm
-from vetting.memo import render_docx
+from vetting.memo import render_docx, render_md
 from vetting.memo.build import gather, layout
 from vetting.memo.document import BulletList, Document, Figure, Paragraph, Table
 from vetting.records.store import Store
@@ -122,3 +125,24 @@ def _fix_all(v):
     if isinstance(v, list):
         return [_fix_all(x) for x in v]
     return v
+
+
+# Markdown: render_md.escape skips the substitutions when a search finds nothing to escape. The
+# plain definition, written out here: CommonMark 0.31 section 2.4 (a backslash before ASCII
+# punctuation makes it literal) applied to the characters that start markup in a table cell or
+# a line, and a list marker at the start of a line (section 5.2) escaped the same way.
+_SPECIAL = re.compile(r"([\\`*_\[\]<>|#~])")
+_LEADING_LIST = re.compile(r"^(\s*)([-+]|\d+[.)])(\s)")
+
+
+def _plain_escape(text: str) -> str:
+    line = _SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+    return _LEADING_LIST.sub(lambda m: m.group(1) + "\\" + m.group(2) + m.group(3), line)
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.text(alphabet=st.sampled_from(list("ab1 9.)-+\\`*_[]<>|#~\t\n\u00a0\u2028٣") + ["x"]), max_size=30)
+       | st.text(max_size=30))
+def test_markdown_escape_matches_the_plain_definition(text):
+    assert render_md.escape(text) == _plain_escape(text)
+    assert render_md.inline(text) == _SPECIAL.sub(r"\\\1", " ".join(text.split()))

@@ -71,11 +71,11 @@ def _table(table: Table) -> str:
         for i, c in enumerate(table.columns)
     )
     parts.append(f"<thead><tr>{head}</tr></thead><tbody>")
+    # each column's opening tag, worked out once per table rather than once per cell
+    width = max(map(len, table.rows), default=0)
+    opens = ['<td class="num">' if i in table.numeric else "<td>" for i in range(width)]
     for row in table.rows:
-        cells = "".join(
-            f'<td class="num">{escape(c)}</td>' if i in table.numeric else f"<td>{escape(c)}</td>"
-            for i, c in enumerate(row)
-        )
+        cells = "".join([f"{o}{escape(c)}</td>" for o, c in zip(opens, row)])
         parts.append(f"<tr>{cells}</tr>")
     parts.append("</tbody></table>")
     return "".join(parts)

@@ -26,12 +26,17 @@ _LEADING_LIST = re.compile(r"^(\s*)([-+]|\d+[.)])(\s)")
 
 def inline(text: str) -> str:
     """Make text literal inside a line (after a marker such as '# ', '- ' or '| ')."""
-    return _SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+    text = " ".join(str(text).split())
+    # most cells hold no special character: a search is much cheaper than a substitution
+    return _SPECIAL.sub(r"\\\1", text) if _SPECIAL.search(text) else text
 
 
 def escape(text: str) -> str:
     """Make user text literal in Markdown at the start of a line: no markup, no raw HTML, one line."""
-    return _LEADING_LIST.sub(lambda m: m.group(1) + "\\" + m.group(2) + m.group(3), inline(text))
+    text = inline(text)
+    if _LEADING_LIST.match(text) is None:
+        return text
+    return _LEADING_LIST.sub(lambda m: m.group(1) + "\\" + m.group(2) + m.group(3), text)
 
 
 def _table(table: Table) -> list[str]:
