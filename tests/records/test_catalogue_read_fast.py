@@ -51,20 +51,25 @@ def _same_tree(text: str) -> None:
     assert _tree_outcome(cio._read_tree, text) == _tree_outcome(reference_read_tree, text)
 
 
-def _parse_outcome(data, fast: bool):
-    old = cio._FAST_PATH
-    cio._FAST_PATH = fast
+def _parse_outcome(files, fast: bool):
+    """Parse `files` ([(data, name)]) with the new reader (fast=True: the inlined field path and
+    checking each record as it is read) or the old way (the general path, whole tree)."""
+    old = cio._FAST_PATH, cio._CHECK_WHILE_READING
+    cio._FAST_PATH = cio._CHECK_WHILE_READING = fast
     try:
-        return ("read", cio.parse_catalogue(data, NAME))
+        return ("read", cio.parse_catalogues(files))
     except CatalogueError as exc:
         return ("refused", [str(p) for p in exc.problems], exc.truncated)
     finally:
-        cio._FAST_PATH = old
+        cio._FAST_PATH, cio._CHECK_WHILE_READING = old
 
 
-def _same_parse(data) -> tuple:
-    fast = _parse_outcome(data, True)
-    assert fast == _parse_outcome(data, False)
+def _same_parse(data, *more) -> tuple:
+    files = [(data, NAME), *((x, f"more-{i}.yaml") for i, x in enumerate(more))]
+    fast = _parse_outcome(files, True)
+    assert fast == _parse_outcome(files, False)
+    if fast[0] == "read" and not more:
+        fast = ("read", fast[1][0])
     return fast
 
 
@@ -162,6 +167,19 @@ def test_many_problems_are_listed_and_cut_off_the_same_way():
 def test_mutated_catalogues_read_the_same(text):
     _same_tree(text)
     _same_parse(text)
+
+
+@settings(max_examples=40, **COMMON)
+@given(mutated_text(), mutated_text())
+def test_several_mutated_files_read_the_same(first, second):
+    _same_parse(first, second)
+
+
+def test_several_files_with_many_problems_are_cut_off_the_same_way():
+    good = cio.dump_catalogue(generate_catalogue(30, seed=6))
+    bad = good.replace("minutes: ", "minutes: -").replace("\n    title:", "\n    titel:")
+    outcome = _same_parse(bad, bad.replace("format: 1", "format: 1\nformat: 1"), good, "format: 2\n")
+    assert outcome[0] == "refused" and outcome[2] is True
 
 
 @settings(max_examples=60, **COMMON)

@@ -104,6 +104,24 @@ class _Scalar:
         self.line = line
 
 
+class _Checked:
+    """An instrument or job already checked while the file was being read (see `_read_tree`'s
+    `on_record`): its values and problems, kept in place of its nodes, which are let go."""
+
+    __slots__ = ("line", "entity", "path", "values", "problems", "truncated")
+    kind = "map"
+    tag = None
+    items = ()
+
+    def __init__(self, line: int, entity: str, path: str, values: Any, problems: list, truncated: bool) -> None:
+        self.line = line
+        self.entity = entity
+        self.path = path
+        self.values = values
+        self.problems = problems
+        self.truncated = truncated
+
+
 class _Stop(Exception):
     """Raised inside the reader to abandon a file after a fatal problem."""
 
@@ -151,13 +169,18 @@ def _mark_line(exc: yaml.YAMLError) -> int | None:
     return None
 
 
-def _read_tree(text: str, filename: str) -> _Node | None:
+def _read_tree(text: str, filename: str, on_record: Any = None) -> _Node | None:
     """Stream the YAML events into a tree, refusing anything a catalogue never needs.
 
     This loop runs once per YAML event (about 250 per instrument), so it is written for speed:
     scalars, by far the most common event, are handled first, and a mapping's field names are
     kept as (text, line) without a node of their own. Every check happens in the same order
-    as events arrive, so the first problem in the file is the one reported."""
+    as events arrive, so the first problem in the file is the one reported.
+
+    `on_record(section, index, node)`, when given, is called as each item of a top-level list
+    (e.g. `instruments:`) ends, and what it returns replaces the item in the tree: the reader
+    checks each record as soon as it is read, so the nodes of the whole file never exist at
+    once."""
     resolve = yaml.resolver.Resolver().resolve
     root: _Node | None = None
     stack: list[_Node] = []
@@ -222,8 +245,13 @@ def _read_tree(text: str, filename: str) -> _Node | None:
                     parent.pending = None
                 continue
             if cls is seq_end or cls is map_end:
-                stack.pop()
+                done = stack.pop()
                 parent = stack[-1] if stack else None
+                if on_record is not None and len(stack) == 2 and done.kind == "map":
+                    top, section = stack
+                    if top.kind == "map" and section.kind == "seq" and section.items[-1] is done:
+                        name = top.items[-1][0]  # the list still open is the last field so far
+                        section.items[-1] = on_record(name, len(section.items) - 1, done)
                 continue
             mark = event.start_mark
             line = mark.line + 1 if mark is not None else None
@@ -484,6 +512,14 @@ class _Checker:
     def record(self, node: _Node, entity: str, path: str) -> dict[str, Any] | None:
         """Check one mapping against its entity's rules; returns the values that passed (or None
         when the node is not a mapping). Problems go to self.problems."""
+        if type(node) is _Checked:  # checked as it was read: report its problems here, in order
+            if node.entity != entity or node.path != path:  # pragma: no cover - cannot happen
+                raise AssertionError(f"record {node.path} checked as {node.entity}, wanted {path} as {entity}")
+            for problem in node.problems:
+                self.add(problem.line, problem.path, problem.message)
+            if node.truncated:
+                self.truncated = True
+            return node.values
         table = rules.ENTITIES[entity]
         if node.kind != "map":
             got = "a list" if node.kind == "seq" else rules.what_is(self.scalar(node, rules.Rule("text"), path, text=False))
@@ -726,6 +762,35 @@ def parse_catalogues(
         return _parse_catalogues(files, known_attributes)
 
 
+#: Instruments and jobs are checked as each is read (`_record_checker`), so the reader holds
+#: one record's nodes at a time rather than the whole file's (about 25 KB an instrument).
+#: False checks the whole tree after reading it (the tests compare the two).
+_CHECK_WHILE_READING = True
+_RECORD_SECTIONS = {"instruments": "instrument", "jobs": "job"}
+
+
+def _record_checker(filename: str) -> Any:
+    """`_read_tree`'s on_record: check an instrument or job with the same rules, path and
+    problem list the whole-tree check would use, and keep only the outcome. Attributes are left
+    as nodes (they are few, and every file's attribute keys are gathered from the tree before
+    anything is checked); the problems are added to the file's list in document order when
+    the whole-tree check reaches the record, so the list, its order and its cut-off are the
+    same."""
+    scratch = _Checker(filename, frozenset())
+
+    def on_record(section: str, index: int, node: Any) -> Any:
+        entity = _RECORD_SECTIONS.get(section)
+        if entity is None:
+            return node
+        scratch.problems = []
+        scratch.truncated = False
+        path = f"{section}[{index}]"
+        values = scratch.record(node, entity, path)
+        return _Checked(node.line, entity, path, values, scratch.problems, scratch.truncated)
+
+    return on_record
+
+
 def _parse_catalogues(
     files: list[tuple[bytes | str, str]],
     known_attributes: set[str] | frozenset[str],
@@ -734,7 +799,8 @@ def _parse_catalogues(
     trees: list[tuple[str, _Node | None] | None] = []
     for data, name in files:
         try:
-            trees.append((name, _read_tree(_decode(data, name), name)))
+            on_record = _record_checker(name) if _CHECK_WHILE_READING else None
+            trees.append((name, _read_tree(_decode(data, name), name, on_record)))
         except CatalogueError as exc:
             problems.extend(exc.problems)
             trees.append(None)
