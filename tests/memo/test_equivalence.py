@@ -146,3 +146,31 @@ def _plain_escape(text: str) -> str:
 def test_markdown_escape_matches_the_plain_definition(text):
     assert render_md.escape(text) == _plain_escape(text)
     assert render_md.inline(text) == _SPECIAL.sub(r"\\\1", " ".join(text.split()))
+
+
+def test_memo_leaves_the_collector_as_it_found_it(synthetic_store, tmp_path):
+    # The memo pauses the cyclic garbage collector and then moves what it made to the oldest
+    # generation with gc.freeze()/gc.unfreeze() (Python documentation, module gc). Afterwards
+    # the collector must be on again, and objects someone else froze must stay frozen.
+    import gc
+
+    from vetting.memo.api import make_memo
+
+    key = sorted(synthetic_store.job_keys())[0]
+    assert gc.isenabled()
+    first = make_memo(synthetic_store, key, fmt="md", out=tmp_path / "a.md", as_of=AS_OF, now=NOW, draws=100)
+    assert gc.isenabled()
+    sentinel = [object()]  # a tracked object, frozen by "someone else"
+
+    def in_a_generation() -> bool:
+        return any(o is sentinel for g in range(3) for o in gc.get_objects(generation=g))
+
+    assert in_a_generation()
+    gc.freeze()
+    try:
+        assert not in_a_generation() and gc.get_freeze_count() > 0
+        second = make_memo(synthetic_store, key, fmt="md", out=tmp_path / "b.md", as_of=AS_OF, now=NOW, draws=100)
+        assert gc.isenabled() and not in_a_generation()  # still frozen
+    finally:
+        gc.unfreeze()
+    assert first.fingerprint == second.fingerprint
