@@ -17,6 +17,7 @@ from __future__ import annotations
 import datetime as dt
 import gc
 import importlib
+import time
 from collections.abc import Callable, Iterable
 from functools import partial
 
@@ -39,9 +40,14 @@ RESULT_SCREENS: dict[str, tuple[str, str]] = {
 #: Every screen name reachable with `go`, in the order of their keys.
 SCREEN_NAMES = ("catalogue", "jobs", *RESULT_SCREENS, "help")
 
-#: the cyclic garbage collector's first threshold while the interface runs (Python's default
-#: is 700; see VettingApp._tune_collector)
-GC_FIRST_THRESHOLD = 20_000
+#: the garbage collector's full collections while the interface runs (see
+#: VettingApp._defer_full_collections): never automatic; when the interface has had no key or
+#: click for IDLE_SECONDS, no worker is busy and the younger generation has been collected
+#: FULL_COLLECTION_AFTER times since the last full collection (Python's own default: 10)
+FULL_COLLECTION_NEVER = 1_000_000_000
+FULL_COLLECTION_AFTER = 25
+IDLE_SECONDS = 3.0
+IDLE_CHECK_SECONDS = 1.0
 
 DARK_THEME = "textual-dark"
 LIGHT_THEME = "textual-light"
@@ -128,15 +134,23 @@ class VettingApp(App[int]):
         self.current_job: str | None = None
         self.theme = DARK_THEME
         self._heap_frozen = False
+        self._default_job_started = False
 
     # -- lifecycle ---------------------------------------------------------------------------
 
     def on_mount(self) -> None:
         from vetting.tui.screens.catalogue import CatalogueScreen
 
-        self._tune_collector()
+        self._defer_full_collections()
         self.push_screen(CatalogueScreen())
-        self._pick_default_job()
+
+    def pick_default_job(self) -> None:
+        """Start finding the first job (once). The catalogue calls this when its first rows are
+        on screen: reading every job (400 at 10,000 instruments) alongside the first page made
+        the first usable screen wait for it."""
+        if not self._default_job_started:
+            self._default_job_started = True
+            self._pick_default_job()
 
     @work(thread=True, exclusive=True, group="default-job")
     def _pick_default_job(self) -> None:
@@ -168,22 +182,41 @@ class VettingApp(App[int]):
             self._heap_frozen = True
             gc.freeze()
 
-    def _tune_collector(self) -> None:
-        """Collect young objects less often while the interface runs (restored on exit).
+    def _defer_full_collections(self) -> None:
+        """Full garbage collections wait until the interface is idle (restored on exit).
 
-        Building a screen allocates tens of thousands of objects that live as long as the
-        screen; with the default first threshold (700) they are scanned again and again and
-        pushed into the older generations, which then fill up and start full collections in
-        the middle of a key press. A first threshold of 20,000 lets most of them settle or die
-        young; the older generations keep their defaults' ratios, so garbage stays bounded.
+        A full collection scans every object not frozen: with a results screen open at 10,000
+        instruments that is several hundred thousand (the ranking, the table's rows), about
+        0.3-1 s on a busy 2-core machine, and Python starts one whenever the heap has grown by
+        a quarter, in whichever thread happens to allocate: a worker's as often as the
+        interface's. The collector holds the interpreter lock meanwhile, so keys froze. The
+        young generations are still collected as usual (a few milliseconds each); the full
+        collection runs from `_collect_when_idle`, after a pause in the typing with no worker
+        busy, so garbage (closed screens) is still freed.
         """
-        self._old_gc_threshold = gc.get_threshold()
-        gc.set_threshold(GC_FIRST_THRESHOLD, *self._old_gc_threshold[1:])
+        self._gc_threshold = gc.get_threshold()
+        gc.set_threshold(self._gc_threshold[0], self._gc_threshold[1], FULL_COLLECTION_NEVER)
+        self._last_input = time.monotonic()
+        self.set_interval(IDLE_CHECK_SECONDS, self._collect_when_idle, name="idle-collector")
+
+    def _collect_when_idle(self) -> None:
+        if gc.get_count()[2] < FULL_COLLECTION_AFTER or not gc.isenabled():
+            return
+        if time.monotonic() - self._last_input < IDLE_SECONDS:
+            return
+        if any(worker.is_running for worker in self.workers):
+            return
+        gc.collect()
+
+    async def on_event(self, event: events.Event) -> None:
+        if isinstance(event, (events.Key, events.MouseDown)):
+            self._last_input = time.monotonic()
+        await super().on_event(event)
 
     def _restore_collector(self) -> None:
-        old = getattr(self, "_old_gc_threshold", None)
-        if old is not None:
-            gc.set_threshold(*old)
+        threshold = getattr(self, "_gc_threshold", None)
+        if threshold is not None:
+            gc.set_threshold(*threshold)
         if self._heap_frozen:  # hand the frozen objects back to the collector
             gc.unfreeze()
             self._heap_frozen = False

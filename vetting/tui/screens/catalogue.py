@@ -102,7 +102,17 @@ def filter_rows(rows: list[CatalogueRow], text: str) -> list[CatalogueRow]:
     words = text.lower().split()
     if not words:
         return rows
+    if len(words) == 1:  # the usual case, without a generator per row
+        word = words[0]
+        return [r for r in rows if word in r.haystack]
     return [r for r in rows if all(w in r.haystack for w in words)]
+
+
+def narrows(before: str, after: str) -> bool:
+    """True when every row matching `after` also matches `before`, so the rows matching
+    `before` can be filtered instead of every row: `after` is `before` with more typed at the
+    end (each word of `before` is then a word of `after` or the start of its last word)."""
+    return after.lower().startswith(before.lower()) and bool(before.split())
 
 
 class CatalogueScreen(Screen):
@@ -127,7 +137,8 @@ class CatalogueScreen(Screen):
         Binding("down", "to_table", "To table", show=False, id="catalogue.down", tooltip="Move into the table"),
     ]
 
-    DEBOUNCE_SECONDS = 0.08
+    #: a pause this long in the typing applies the filter (keys typed faster are taken together)
+    DEBOUNCE_SECONDS = 0.03
     #: the table holds at most this many rows (the best by the current sort); typing narrows
     #: the list. Sorting and filtering always work on every instrument, in memory.
     MAX_TABLE_ROWS = 100
@@ -144,6 +155,8 @@ class CatalogueScreen(Screen):
         self.first_page_shown = False
         self._filter_timer = None
         self._ordered: list[CatalogueRow] = []
+        #: the last filter text and its rows (in the current order), to narrow from
+        self._last_filter: tuple[str, list[CatalogueRow]] | None = None
         self._keys: list[str] = []
         #: True when row contents changed (a save or reload) so the table must be redrawn
         self._stale = True
@@ -214,6 +227,13 @@ class CatalogueScreen(Screen):
         self._resort()
         self._apply_filter()
         self.first_page_shown = True
+        self._after_first_rows()
+
+    def _after_first_rows(self) -> None:
+        """Work that waits until the first rows are on screen (the current job for F4-F7)."""
+        pick = getattr(self.app, "pick_default_job", None)
+        if pick is not None:
+            self.call_after_refresh(pick)
 
     def _show_progress(self, done: int, total: int) -> None:
         if self.rows:  # the first page is on screen: keep it, and say the rest is coming
@@ -222,6 +242,7 @@ class CatalogueScreen(Screen):
         self.query_one("#count", Static).update(f"loading {done:,} of {total:,}…")
 
     def _load_failed(self, exc: Exception) -> None:
+        self._after_first_rows()
         self.query_one("#count", Static).update("not loaded")
         self.query_one("#status", Static).update(f"✗ Could not read the catalogue: {exc}")
         self.notify(str(exc), title="Catalogue not loaded", severity="error", timeout=10)
@@ -232,6 +253,7 @@ class CatalogueScreen(Screen):
         self.loaded = True
         self._resort()
         self._apply_filter()
+        self._after_first_rows()
         freeze = getattr(self.app, "freeze_long_lived", None)
         if freeze is not None:
             freeze()
@@ -246,11 +268,17 @@ class CatalogueScreen(Screen):
 
     def _resort(self) -> None:
         self._ordered = sort_rows(self.rows, self.sort_column, self.sort_reverse)
+        self._last_filter = None
 
     def _apply_filter(self) -> None:
         self._filter_timer = None
         text = self.query_one("#filter", Input).value
-        shown = filter_rows(self._ordered, text)
+        base = self._ordered
+        last = self._last_filter
+        if last is not None and narrows(last[0], text):
+            base = last[1]  # typing more only narrows: filter what matched before
+        shown = filter_rows(base, text)
+        self._last_filter = (text, shown)
         self._fill(shown)
 
     def _fill(self, shown: list[CatalogueRow]) -> None:

@@ -253,6 +253,9 @@ class CompareScreen(Screen):
         self.draws = DRAWS[0]
         self.cols: list[Col] = []
         self.error: str | None = None
+        self._rows_pending = 0
+        #: the row the cursor goes back to once its batch is in the table
+        self._restore_row: int | None = None
 
     # -- layout ------------------------------------------------------------------------------
 
@@ -262,8 +265,8 @@ class CompareScreen(Screen):
             yield Static(f"Compare · {self.job_key or 'no job'}", id="heading", classes="title-bar")
             yield Static("", id="chosen", classes="title-bar")
         yield Static("", id="policy", classes="status-line")
-        with Horizontal(id="working"):
-            yield Static("", id="working-text")
+        with Horizontal(id="working"):  # shown from the first paint: the ranking starts at once
+            yield Static("Reading the records…", id="working-text")
             yield ProgressBar(total=3, show_eta=False, id="progress")
         yield DataTable(id="ranking", cursor_type="cell", zebra_stripes=True, cell_padding=0)
         with VerticalScroll(id="detail", can_focus=True):
@@ -301,9 +304,16 @@ class CompareScreen(Screen):
             if not worker.is_cancelled:
                 call(self._failed, exc)
             return
+        if worker.is_cancelled:
+            return
+        call(self._progress, 2, "Laying out…")
+        # the table's cells are formatted here, off the interface thread (10,000 rows of
+        # text took over half a second there); the interface only adds them
+        cols = columns_for(self.app.size.width)
+        chosen = self.chosen
+        rows = [(result.instrument, [cell(c, result, chosen) for c in cols]) for result in ranking.results]
         if not worker.is_cancelled:
-            call(self._progress, 2, "Laying out…")
-            call(self._ranked, ranking)
+            call(self._ranked, ranking, cols, rows)
 
     def _failed(self, exc: Exception) -> None:
         self.error = str(exc)
@@ -314,7 +324,7 @@ class CompareScreen(Screen):
         )
         self.notify(str(exc), title="Not ranked", severity="error", timeout=10)
 
-    def _ranked(self, ranking) -> None:
+    def _ranked(self, ranking, cols: list[Col] | None = None, rows: list | None = None) -> None:
         self.error = None
         self.ranking = ranking
         self.query_one(ProgressBar).update(progress=3)
@@ -323,28 +333,71 @@ class CompareScreen(Screen):
                                                       no_wrap=True, overflow="ellipsis"))
         self.query_one("#policy", Static).update(policy_line(ranking))
         self.query_one("#whole", Static).update(ranking_text(ranking))
-        self._fill()
+        self._fill(cols, rows)
 
     # -- the table ---------------------------------------------------------------------------
 
-    def _fill(self) -> None:
+    #: rows added at once: the first batch fills a tall screen at once; the rest follow in
+    #: batches, and keys are handled between batches (the table never freezes the keys)
+    FIRST_ROWS = 120
+    BATCH_ROWS = 400
+
+    def _fill(self, cols: list[Col] | None = None, rows: list | None = None) -> None:
         table = self.query_one(DataTable)
         keep = table.cursor_coordinate
         table.clear(columns=True)
-        self.cols = columns_for(self.app.size.width)
+        self.cols = cols if cols is not None else columns_for(self.app.size.width)
         fixed = sum(c.width for c in self.cols if c.kind != "title")
         title_width = max(12, min(56, self.app.size.width - fixed - 3))
         for col in self.cols:
             table.add_column(col.label, key=col.id, width=col.width or title_width)
-        chosen = self.chosen
-        for result in self.ranking.results:
-            table.add_row(*(cell(c, result, chosen) for c in self.cols), key=result.instrument)
+        if rows is None:
+            chosen = self.chosen
+            rows = [(r.instrument, [cell(c, r, chosen) for c in self.cols]) for r in self.ranking.results]
+        self._rows_pending = len(rows)
+        self._restore_row = None
+        self._add_rows(table, rows[: self.FIRST_ROWS])
         if self.ranking.results:
             row = min(keep.row, len(self.ranking.results) - 1)
             column = keep.column if 1 < keep.column < len(self.cols) else 2
-            table.move_cursor(row=row, column=column, animate=False)
+            if row < table.row_count:
+                table.move_cursor(row=row, column=column, animate=False)
+            else:  # the row comes in a later batch
+                table.move_cursor(row=0, column=column, animate=False)
+                self._restore_row = row
         self._show_chosen()
         self._explain()
+        if len(rows) > self.FIRST_ROWS:
+            self.run_worker(self._add_rest(table, rows), group="compare-fill", exclusive=True)
+
+    def _add_rows(self, table: DataTable, rows: list) -> None:
+        for key, cells in rows:
+            table.add_row(*cells, key=key)
+        self._rows_pending -= len(rows)
+
+    async def _add_rest(self, table: DataTable, rows: list) -> None:
+        import asyncio
+
+        for start in range(self.FIRST_ROWS, len(rows), self.BATCH_ROWS):
+            await asyncio.sleep(0)  # let keys and painting in between batches
+            if table.row_count != start:  # the table was filled again meanwhile
+                return
+            self._add_rows(table, rows[start : start + self.BATCH_ROWS])
+            wanted = self._restore_row
+            if wanted is not None and wanted < table.row_count:
+                self._restore_row = None
+                table.move_cursor(row=wanted, animate=False)
+
+    def _mark_chosen(self, before: str | None, after: str | None) -> None:
+        """Move the ▶ mark in the rank column (no need to fill the whole table again)."""
+        table = self.query_one(DataTable)
+        rank_col = next((c for c in self.cols if c.kind == "rank"), None)
+        if self.ranking is None or rank_col is None:
+            return
+        by_key = {r.instrument: r for r in self.ranking.results if r.instrument in (before, after)}
+        for key in (before, after):
+            if key in by_key and key in table.rows:
+                table.update_cell(key, rank_col.id, cell(rank_col, by_key[key], after))
 
     @property
     def chosen(self) -> str | None:
@@ -400,9 +453,12 @@ class CompareScreen(Screen):
                 title="Not chosen", severity="warning", timeout=10,
             )
             return
+        before = self.chosen
         remember_choice(self.app, self.job_key, result.instrument)
         self.notify(f"{result.title} is chosen for Plan (F5) and Memo (F7).", title="Chosen")
-        self._fill()
+        self._mark_chosen(before, result.instrument)
+        self._show_chosen()
+        self._explain()
 
     def action_next_job(self) -> None:
         self._next_job()

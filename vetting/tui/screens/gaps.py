@@ -39,6 +39,11 @@ def gaps_text(report) -> Text:
     return text
 
 
+def _cells(report) -> tuple[Text, Text]:
+    count = len(report.gaps)
+    return (Text(report.title, no_wrap=True, overflow="ellipsis"), Text(f"{count:>3}" if count else "  ✓"))
+
+
 def default_letter_path(instrument_key: str) -> str:
     return str(Path.cwd() / f"request-{instrument_key}.txt")
 
@@ -86,39 +91,64 @@ class GapsScreen(Screen):
     @work(thread=True, exclusive=True, group="gaps-load")
     def load(self) -> None:
         from vetting.appraisal import gap_report
+        from vetting.records.gcpause import gc_pause
 
         try:
             store = store_of(self, self.store_url)
             job = store.job(self.job_key) if self.job_key else None
             day = as_of(self)
-            reports = [gap_report(inst, job=job, as_of=day)
-                       for inst in sorted(store.instruments(), key=lambda i: i.title.lower())]
+            # no collection in the middle of this bulk work (it would hold the interface's keys
+            # for as long as it runs; see vetting.records.gcpause)
+            with gc_pause():
+                reports = [gap_report(inst, job=job, as_of=day)
+                           for inst in sorted(store.instruments(), key=lambda i: i.title.lower())]
         except Exception as exc:
             self.app.call_from_thread(self._failed, exc)
             return
-        self.app.call_from_thread(self._loaded, reports, job)
+        # the table's cells are made here, off the interface thread
+        rows = [(report.instrument, _cells(report)) for report in reports]
+        self.app.call_from_thread(self._loaded, reports, job, rows)
 
     def _failed(self, exc: Exception) -> None:
         self.query_one("#gap-list", Static).update(Text(f"✗ Could not read the records: {exc}", style="bold"))
 
-    def _loaded(self, reports, job) -> None:
+    #: rows added at once; the rest follow in batches with keys handled in between
+    FIRST_ROWS = 120
+    BATCH_ROWS = 400
+
+    def _loaded(self, reports, job, rows: list | None = None) -> None:
         self.reports = reports
         if job is not None:
             self.query_one("#heading", Static).update(Text(
                 f"Gaps · {job.title} ({job.key}) · judged by its policy", no_wrap=True, overflow="ellipsis"))
+        if rows is None:
+            rows = [(report.instrument, _cells(report)) for report in reports]
         table = self.query_one(DataTable)
         table.clear()
-        for report in reports:
-            count = len(report.gaps)
-            table.add_row(Text(report.title, no_wrap=True, overflow="ellipsis"),
-                          Text(f"{count:>3}" if count else "  ✓"), key=report.instrument)
+        for key, cells in rows[: self.FIRST_ROWS]:
+            table.add_row(*cells, key=key)
         if not reports:
             self.query_one("#gap-list", Static).update("No instruments on record. Add some on the Catalogue (F2).")
             return
         keys = [r.instrument for r in reports]
         chosen = chosen_instrument(self.app, self.job_key)
-        table.move_cursor(row=keys.index(chosen) if chosen in keys else 0, animate=False)
+        row = keys.index(chosen) if chosen in keys else 0
+        table.move_cursor(row=row if row < table.row_count else 0, animate=False)
         self._show()
+        if len(rows) > self.FIRST_ROWS:
+            self.run_worker(self._add_rest(table, rows, row), group="gaps-fill", exclusive=True)
+
+    async def _add_rest(self, table: DataTable, rows: list, wanted: int) -> None:
+        import asyncio
+
+        for start in range(self.FIRST_ROWS, len(rows), self.BATCH_ROWS):
+            await asyncio.sleep(0)  # keys and painting in between batches
+            if table.row_count != start:  # filled again meanwhile
+                return
+            for key, cells in rows[start : start + self.BATCH_ROWS]:
+                table.add_row(*cells, key=key)
+            if wanted and start <= wanted < table.row_count:
+                table.move_cursor(row=wanted, animate=False)
 
     def current(self):
         table = self.query_one(DataTable)

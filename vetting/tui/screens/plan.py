@@ -152,18 +152,21 @@ class PlanScreen(Screen):
     @work(thread=True, exclusive=True, group="plan-load")
     def load(self) -> None:
         from vetting.appraisal import rank
+        from vetting.records.gcpause import gc_pause
 
         try:
             store = store_of(self, self.store_url)
             job = store.job(self.job_key)
-            instruments = sorted(store.instruments(), key=lambda i: i.title.lower())
-            start = chosen_instrument(self.app, self.job_key)
-            if start is None and instruments:
-                try:  # no choice yet: start on the engine's top choice (one draw, nothing recorded)
-                    top = rank(job, instruments, draws=1, seed=0, as_of=as_of(self)).top
-                    start = top.instrument if top is not None else None
-                except ValueError:
-                    start = None
+            # no collection in the middle of this bulk work (see vetting.records.gcpause)
+            with gc_pause():
+                instruments = sorted(store.instruments(), key=lambda i: i.title.lower())
+                start = chosen_instrument(self.app, self.job_key)
+                if start is None and instruments:
+                    try:  # no choice yet: start on the engine's top choice (one draw, nothing recorded)
+                        top = rank(job, instruments, draws=1, seed=0, as_of=as_of(self)).top
+                        start = top.instrument if top is not None else None
+                    except ValueError:
+                        start = None
         except Exception as exc:
             self.app.call_from_thread(self._failed, exc)
             return

@@ -1,0 +1,157 @@
+"""What the interface does to stay quick on large catalogues, checked for the same outcome as
+the plain way: narrowing the filter from the previous matches, adding long result tables in
+batches, moving the chosen mark without refilling, shortening the memo preview, and pausing
+the garbage collector's full scans only while the interface runs.
+
+The expected outcomes come from the engine itself (`rank`, `gap_report`) and from filtering
+every row afresh; what is checked is that the quicker paths give exactly the same rows in
+the same order (common practice for such optimisations, no published source)."""
+
+from __future__ import annotations
+
+import gc
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from textual.widgets import DataTable, Markdown
+
+from vetting.appraisal import rank
+from vetting.records.store import Store
+from vetting.records.synthetic import generate_catalogue
+from vetting.tui.screens.catalogue import CatalogueScreen, filter_rows, narrows
+from vetting.tui.screens.compare import CompareScreen
+from vetting.tui.screens.gaps import GapsScreen
+from vetting.tui.screens.memo import MemoScreen, preview_markdown
+
+from .conftest import TODAY
+
+
+def _rows(haystacks: list[str]):
+    from vetting.tui.data import CatalogueRow
+
+    return [CatalogueRow(f"k{i}", f"T{i}", "", [], None, haystack=h) for i, h in enumerate(haystacks)]
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.lists(st.text(alphabet="abc -", max_size=12), max_size=40),
+    st.text(alphabet="abC -", max_size=6),
+    st.text(alphabet="abc -", max_size=4),
+)
+def test_narrowing_the_filter_gives_the_same_rows_as_filtering_every_row(haystacks, typed, more):
+    rows = _rows([h.lower() for h in haystacks])
+    before, after = typed, typed + more
+    if narrows(before, after):
+        assert filter_rows(filter_rows(rows, before), after) == filter_rows(rows, after)
+
+
+def test_narrowing_is_only_used_when_text_is_added_at_the_end():
+    assert narrows("ab", "abc") and narrows("ab", "ab c") and narrows("a b", "a bc")
+    assert not narrows("abc", "ab")  # deleting widens
+    assert not narrows("ab", "xab")  # typed in front
+    assert not narrows("", "a")  # nothing typed before: every row is the base anyway
+
+
+def test_preview_cuts_long_tables_and_lists_and_says_how_many_more():
+    table = ["| Instrument | Gate |", "|---|---|"] + [f"| i{n} | PASS |" for n in range(100)]
+    items = [f"- reason {n}" for n in range(45)]
+    short = ["| a | b |", "|---|---|", "| 1 | 2 |"]
+    text = "\n".join(["<!-- vetting-memo-stamp: x -->", "# Memo", "", *table, "", *items, "", *short, ""])
+    preview = preview_markdown(text, rows=40)
+    lines = preview.splitlines()
+    assert "vetting-memo-stamp" not in preview
+    assert "| i39 | PASS |" in lines and "| i40 | PASS |" not in lines
+    assert "*… and 60 more rows: the exported memo (k, h or w) has them all.*" in lines
+    assert "- reason 39" in lines and "- reason 40" not in lines
+    assert "*… and 5 more items: the exported memo (k, h or w) has them all.*" in lines
+    assert lines[-3:] == short  # a short table is left whole
+    # nothing to cut: the same text, without the stamp
+    assert preview_markdown("# Memo\n\n- one\n- two\n") == "# Memo\n\n- one\n- two\n"
+
+
+def _generated_url(tmp_path, n: int) -> str:
+    url = f"sqlite:///{tmp_path / 'scale.db'}"
+    with Store.open(url, user="test") as store:
+        store.import_catalogue(generate_catalogue(n, seed=3), source="generated")
+    return url
+
+
+async def _open(pilot, settle, name: str, job: str) -> object:
+    await settle(pilot)
+    pilot.app.current_job = job
+    pilot.app.go(name)
+    await settle(pilot, rounds=6)
+    return pilot.app.screen
+
+
+async def test_long_ranking_is_added_in_batches_and_ends_as_the_engines(tmp_path, app_for, settle):
+    url = _generated_url(tmp_path, 300)  # more rows than the first batch and one more batch
+    with Store.open(url) as store:
+        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+        expected = rank(job, store.instruments(), draws=2000, seed=0, as_of=TODAY)
+    app = app_for(url)
+    async with app.run_test(size=(140, 40)) as pilot:
+        screen = await _open(pilot, settle, "compare", job.key)
+        assert isinstance(screen, CompareScreen) and screen.ranking is not None, screen.error
+        assert len(expected.results) > CompareScreen.FIRST_ROWS + 1
+        table = screen.query_one(DataTable)
+        assert table.row_count == len(expected.results)
+        keys = [row.value for row in table.rows]
+        assert keys == [r.instrument for r in expected.results]
+        cols = [c.id for c in screen.cols]
+        last = [str(getattr(c, "plain", c)).strip() for c in table.get_row_at(len(expected.results) - 1)]
+        assert last[cols.index("score")] == f"{expected.results[-1].score:.1f}"
+
+        # choosing moves the ▶ mark in the rank column of two rows, as a full refill would show
+        top = expected.top
+        table.move_cursor(row=keys.index(top.instrument), column=cols.index("score"), animate=False)
+        await pilot.pause()
+        await pilot.press("space")
+        await pilot.pause()
+        rank_cell = str(table.get_row_at(keys.index(top.instrument))[cols.index("rank")])
+        assert rank_cell == f"▶{top.rank}"
+        second = next(r for r in expected.results if r.eligible and r.instrument != top.instrument)
+        table.move_cursor(row=keys.index(second.instrument), animate=False)
+        await pilot.pause()
+        await pilot.press("space")
+        await pilot.pause()
+        assert str(table.get_row_at(keys.index(top.instrument))[cols.index("rank")]) == f" {top.rank}"
+        assert str(table.get_row_at(keys.index(second.instrument))[cols.index("rank")]) == f"▶{second.rank}"
+
+
+async def test_long_gaps_list_is_added_in_batches_in_title_order(tmp_path, app_for, settle):
+    url = _generated_url(tmp_path, 300)
+    with Store.open(url) as store:
+        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+        titles = [i.key for i in sorted(store.instruments(), key=lambda i: i.title.lower())]
+    app = app_for(url)
+    async with app.run_test(size=(140, 40)) as pilot:
+        screen = await _open(pilot, settle, "gaps", job.key)
+        assert isinstance(screen, GapsScreen)
+        table = screen.query_one(DataTable)
+        assert [row.value for row in table.rows] == titles
+        assert [r.instrument for r in screen.reports] == titles
+
+
+async def test_memo_preview_of_a_large_catalogue_is_cut(tmp_path, app_for, settle):
+    url = _generated_url(tmp_path, 150)
+    with Store.open(url) as store:
+        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+    app = app_for(url)
+    async with app.run_test(size=(120, 40)) as pilot:
+        screen = await _open(pilot, settle, "memo", job.key)
+        assert isinstance(screen, MemoScreen) and screen.markdown, screen.error
+        assert "more rows: the exported memo (k, h or w) has them all." in screen.markdown
+        assert screen.query_one("#memo-md", Markdown).source == screen.markdown
+
+
+async def test_collector_settings_are_the_interpreters_again_after_the_interface(seeded_url, app_for, settle):
+    threshold = gc.get_threshold()
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen) and app.screen.loaded
+        assert gc.get_freeze_count() > 0  # what was loaded is left out of full collections
+        assert gc.get_threshold()[2] > threshold[2]  # full collections wait for an idle moment
+    assert gc.get_threshold() == threshold
+    assert gc.get_freeze_count() == 0
