@@ -216,3 +216,18 @@ def test_an_optional_field_given_as_null_or_empty_is_not_given(field, empty):
     without = "".join(lines[:i] + lines[i + 1:])
     assert _same_parse(with_null) == _same_parse(without)
     assert _same_parse(with_null)[0] == "read"
+
+
+@pytest.mark.parametrize("field", ["minutes", "n", "year", "importance", "value"])
+@pytest.mark.parametrize("digits", [309, 400, 4000])
+def test_a_whole_number_beyond_any_float_is_a_problem_not_a_crash(field, digits):
+    # A double holds at most about 1.8e308 (IEEE 754-2008, binary64); a longer whole number in
+    # any number field used to crash the range check ("int too large to convert to float").
+    base = (REPO / "catalogues" / "demo.yaml").read_text(encoding="utf-8")
+    lines = base.splitlines(keepends=True)
+    i = next(i for i, line in enumerate(lines) if line.lstrip(" -").startswith(field + ": "))
+    stripped = lines[i].lstrip(" -")
+    lines[i] = lines[i][: len(lines[i]) - len(stripped)] + f"{field}: " + "9" * digits + "\n"
+    outcome = _same_parse("".join(lines))
+    assert outcome[0] == "refused"
+    assert len(outcome[1]) == 1 and f":{i + 1}: " in outcome[1][0] and "as a number" in outcome[1][0], outcome

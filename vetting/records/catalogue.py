@@ -342,6 +342,8 @@ _CLASSES: dict[str, type] = {
 }
 
 _TEXTUAL_KINDS = {rules.TEXT, "key", "enum", "currency"}
+#: The largest whole number a float can hold; beyond it float(x) raises OverflowError.
+_LARGEST_FLOAT = int(sys.float_info.max)
 
 
 #: The common case of `_Checker.field_value` inlined (`_fast_value`); False runs every field
@@ -420,6 +422,11 @@ class _Checker:
                 self.add(node.line, path, f"{node.value!r} is not a valid date (use YYYY-MM-DD)")
             else:
                 self.add(node.line, path, f"cannot read {node.value[:40]!r} as a number")
+            return _BAD
+        if type(value) is int and not -_LARGEST_FLOAT <= value <= _LARGEST_FLOAT:
+            # a whole number too large for any float (over 300 digits): no field takes one, and
+            # the range checks and messages work in floats
+            self.add(node.line, path, f"cannot read {node.value[:40]!r} as a number")
             return _BAD
         if rule.kind == "date" and isinstance(value, str) and _DATE_RE.match(value):
             try:
