@@ -11,9 +11,7 @@ run never leaves a half-written memo. A final memo is recorded as a decision in 
 
 from __future__ import annotations
 
-import contextlib
 import datetime as dt
-import gc
 import os
 import re
 import tempfile
@@ -29,23 +27,6 @@ from vetting.records.gcpause import gc_pause
 
 FORMATS = ("md", "html", "docx")
 _HEX64 = re.compile(r"^[0-9a-fA-F]{64}$")
-
-
-@contextlib.contextmanager
-def _collector_paused():
-    """gc_pause() while a memo is made; then what the memo made and keeps (the records, the
-    engine's results, the document, the chart and Word libraries loaded on first use) goes
-    straight to the collector's oldest generation. Otherwise the first young collection after
-    the pause scans all of it once more (about 0.1 s at 1,000 instruments with the libraries,
-    0.5 s at 10,000), only to find it all alive. gc.freeze() moves every tracked object to the
-    permanent generation and gc.unfreeze() puts them all in the oldest one, without scanning.
-    Skipped when something else has frozen objects (the terminal interface freezes its
-    long-lived heap): unfreeze() would hand those back too."""
-    with gc_pause():
-        yield
-        if gc.get_freeze_count() == 0:
-            gc.freeze()
-            gc.unfreeze()
 
 
 class MemoOutputError(MemoError):
@@ -164,8 +145,14 @@ def make_memo(
     # engine results, document rows, Word XML) and none of them forms a reference cycle that
     # needs collecting while it runs: with the collector on, each full collection walked the
     # whole catalogue again (about half the time at 10,000 instruments). Paused as the records
-    # layer pauses it for bulk reads (counted, so another thread's pause is respected).
-    with _collector_paused():
+    # layer pauses it for bulk reads (counted, so another thread's pause is respected). The
+    # first young collection after the pause scans what the memo made once and frees the few
+    # cycles there are: they matter, since a library imported on first use (matplotlib) leaves
+    # exception tracebacks whose frames hold the memo's own frames and so all its data. (Moving
+    # everything to the oldest generation unscanned, gc.freeze() + gc.unfreeze(), saved that
+    # scan but kept each memo's data alive until a full collection: 90 MB more per Word memo
+    # at 1,000 instruments.)
+    with gc_pause():
         data = gather(
             store, job_key, choose=choose, override=override, by=by, status=status,
             as_of=as_of, now=now, draws=draws, seed=seed,
