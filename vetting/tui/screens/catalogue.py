@@ -7,6 +7,7 @@ once; filtering works in memory on a lowercase text built once per row.
 
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass
 from typing import Any, Callable
 
@@ -48,6 +49,9 @@ def _age(value: int | None) -> str:
 
 
 _QUAL_ORDER = {"open": 0, "trained": 1, "licensed": 2}
+
+#: rows beyond the terminal's height in the first page of a large catalogue
+FIRST_PAGE_MARGIN = 10
 
 
 @dataclass(frozen=True)
@@ -207,10 +211,16 @@ class CatalogueScreen(Screen):
 
         try:
             # the first page in title order first, so the screen is usable at once on a large
-            # catalogue; sorting and filtering work on every instrument once the rest is read
-            first, total = self.app.data.catalogue_first_page(self.MAX_TABLE_ROWS)
+            # catalogue; sorting and filtering work on every instrument once the rest is read.
+            # The page is a screenful and a margin (the table later holds up to MAX_TABLE_ROWS),
+            # and the rest is read only once it has been painted: reading competes with the
+            # interface thread for the interpreter.
+            limit = min(self.MAX_TABLE_ROWS, max(1, self.app.size.height) + FIRST_PAGE_MARGIN)
+            first, total = self.app.data.catalogue_first_page(limit)
             if total > len(first) and not worker.is_cancelled:
-                self.app.call_from_thread(self._first_page, first, total)
+                painted = threading.Event()
+                self.app.call_from_thread(self._first_page, first, total, painted)
+                painted.wait(timeout=2.0)
             rows = self.app.data.catalogue_rows(progress=progress, cancelled=lambda: worker.is_cancelled)
         except Exception as exc:  # shown to the user; the screen stays usable
             self.app.call_from_thread(self._load_failed, exc)
@@ -218,7 +228,9 @@ class CatalogueScreen(Screen):
         if not worker.is_cancelled:
             self.app.call_from_thread(self._loaded, rows)
 
-    def _first_page(self, rows: list[CatalogueRow], total: int) -> None:
+    def _first_page(self, rows: list[CatalogueRow], total: int, painted: threading.Event | None = None) -> None:
+        if painted is not None:
+            self.call_after_refresh(painted.set)
         if self.loaded:
             return
         self.rows = rows
