@@ -18,10 +18,12 @@ from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.events import Key
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Input, Static
+from textual.widgets import DataTable, Input, Static
 from textual.worker import get_current_worker
 
 from vetting.tui.data import CatalogueRow
+from vetting.tui.widgets.fixed_table import FixedTable
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 
 NO_VALUE = "—"  # shown where the record holds no evidence for a figure
@@ -171,7 +173,7 @@ class CatalogueScreen(Screen):
             yield Static("Catalogue", id="heading", classes="title-bar")
             yield Static("opening the database…", id="count", classes="title-bar")
         yield Input(placeholder="type to filter: title, attribute or publisher", id="filter", select_on_focus=False)
-        yield DataTable(id="table", cursor_type="row", zebra_stripes=True)
+        yield FixedTable(id="table", cursor_type="row", zebra_stripes=True)
         yield Static("", id="status", classes="status-line")
         yield Footer()
 

@@ -20,9 +20,11 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, ProgressBar, Static
+from textual.widgets import DataTable, ProgressBar, Static
 from textual.worker import get_current_worker
 
+from vetting.tui.widgets.fixed_table import FixedTable
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 from vetting.tui.widgets.results_common import (
     FAIL_MARK,
@@ -268,7 +270,7 @@ class CompareScreen(Screen):
         with Horizontal(id="working"):  # shown from the first paint: the ranking starts at once
             yield Static("Reading the records…", id="working-text")
             yield ProgressBar(total=3, show_eta=False, id="progress")
-        yield DataTable(id="ranking", cursor_type="cell", zebra_stripes=True, cell_padding=0)
+        yield FixedTable(id="ranking", cursor_type="cell", zebra_stripes=True, cell_padding=0)
         with VerticalScroll(id="detail", can_focus=True):
             yield Static("", id="focus")
             yield Static("", id="row")

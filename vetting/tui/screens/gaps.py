@@ -15,8 +15,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static, TextArea
+from textual.widgets import DataTable, Static, TextArea
 
+from vetting.tui.widgets.fixed_table import FixedTable
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 from vetting.tui.widgets.results_common import PathPrompt, as_of, chosen_instrument, store_of
 
@@ -72,7 +74,7 @@ class GapsScreen(Screen):
         yield NavBar("gaps")
         yield Static(f"Gaps · {self.job_key or 'no job'}", id="heading", classes="title-bar")
         with Horizontal(id="body"):
-            yield DataTable(id="instruments", cursor_type="row", zebra_stripes=True)
+            yield FixedTable(id="instruments", cursor_type="row", zebra_stripes=True)
             with Vertical(id="right"):
                 with VerticalScroll(id="list", can_focus=False):
                     yield Static("loading…", id="gap-list")

@@ -7,8 +7,9 @@ from collections.abc import Iterable
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 
 

@@ -9,10 +9,11 @@ from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from vetting.records.domain import WEIGHT_NAMES, Attribute, Job, Policy, Requirement
 from vetting.tui.widgets.editor import EditorScreen
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 from vetting.tui.widgets.form import FieldSpec, RecordBlock, RecordList, RuleField, text_of
 

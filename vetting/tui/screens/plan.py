@@ -13,9 +13,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 from textual.worker import get_current_worker
 
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 from vetting.tui.widgets.ratio_chart import RatioChart
 from vetting.tui.widgets.results_common import (

@@ -10,10 +10,11 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import Footer, Static, TabbedContent, TabPane
+from textual.widgets import Static, TabbedContent, TabPane
 
-from vetting.tui.widgets.navbar import NavBar
+from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField, block_of
+from vetting.tui.widgets.navbar import NavBar
 
 
 class EditorScreen(Screen):
