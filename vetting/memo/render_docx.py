@@ -67,7 +67,7 @@ def _repeat_header(row) -> None:
 class _State:
     """What one rendering keeps between blocks. `reference` renders through python-docx's own
     public calls only (slow at thousands of rows); the default path writes the same XML with
-    the shortcuts below, and tests/memo/test_docx_equivalence.py checks the two byte for byte."""
+    the shortcuts below, and tests/memo/test_equivalence.py checks the two byte for byte."""
 
     def __init__(self, reference: bool) -> None:
         self.reference = reference
