@@ -46,7 +46,7 @@ SCREEN_NAMES = ("catalogue", "jobs", *RESULT_SCREENS, "help")
 #: FULL_COLLECTION_AFTER times since the last full collection (Python's own default: 10)
 FULL_COLLECTION_NEVER = 1_000_000_000
 FULL_COLLECTION_AFTER = 25
-IDLE_SECONDS = 3.0
+IDLE_SECONDS = 5.0
 IDLE_CHECK_SECONDS = 1.0
 
 DARK_THEME = "textual-dark"

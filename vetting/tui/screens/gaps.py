@@ -74,7 +74,8 @@ class GapsScreen(Screen):
         yield NavBar("gaps")
         yield Static(f"Gaps · {self.job_key or 'no job'}", id="heading", classes="title-bar")
         with Horizontal(id="body"):
-            yield FixedTable(id="instruments", cursor_type="row", zebra_stripes=True)
+            self._table = FixedTable(id="instruments", cursor_type="row", zebra_stripes=True)
+            yield self._table
             with Vertical(id="right"):
                 with VerticalScroll(id="list", can_focus=False):
                     yield Static("loading…", id="gap-list")
@@ -83,6 +84,16 @@ class GapsScreen(Screen):
                 yield TextArea("", id="letter", read_only=True, soft_wrap=True, show_line_numbers=False)
         yield Static("", id="status", classes="status-line")
         yield Footer()
+
+    def on_unmount(self) -> None:
+        # let go of the results and the table's rows when the screen closes: they hold no
+        # reference cycles, so they are freed at once, and the garbage collector (which frees
+        # the screen's widgets later) does not have to scan them (10,000 rows at 10,000
+        # instruments)
+        self.reports = []
+        table = getattr(self, "_table", None)
+        if table is not None:
+            table.clear()
 
     def on_mount(self) -> None:
         table = self.query_one(DataTable)

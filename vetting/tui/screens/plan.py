@@ -7,6 +7,8 @@ is asked again from the engine (`vetting.appraisal.planner.plan`); the chart dra
 
 from __future__ import annotations
 
+from typing import NamedTuple
+
 from rich.text import Text
 from textual import work
 from textual.app import ComposeResult
@@ -30,6 +32,15 @@ from vetting.tui.widgets.results_common import (
     pct,
     store_of,
 )
+
+
+class InstrumentEntry(NamedTuple):
+    """One instrument the planner can step to: only what the keys need. The full record is
+    read when the planner turns to it (holding 10,000 full records made the collector scan
+    about a million objects, a stall of most of a second)."""
+
+    key: str
+    title: str
 
 #: selection ratios the chart is drawn over (inputs to the engine's sweep)
 SWEEP_RATIOS = tuple(round(0.02 * k, 2) for k in range(1, 50))
@@ -123,7 +134,9 @@ class PlanScreen(Screen):
         self.store_url = store_url
         self.job_key = job_key
         self.job = None
-        self.instruments: list = []
+        #: every instrument, by title (key and title only); the current one in full below
+        self.instruments: list[InstrumentEntry] = []
+        self.current = None
         self.index = 0
         self.norm_key: str | None = None  # None: the engine's most suitable
         self.mode = "ratio"
@@ -158,7 +171,8 @@ class PlanScreen(Screen):
         try:
             store = store_of(self, self.store_url)
             job = store.job(self.job_key)
-            # no collection in the middle of this bulk work (see vetting.records.gcpause)
+            # no collection in the middle of this bulk work (see vetting.records.gcpause); only
+            # the keys and titles, and one full record, outlive it
             with gc_pause():
                 instruments = sorted(store.instruments(), key=lambda i: i.title.lower())
                 start = chosen_instrument(self.app, self.job_key)
@@ -168,16 +182,22 @@ class PlanScreen(Screen):
                         start = top.instrument if top is not None else None
                     except ValueError:
                         start = None
+                entries = [InstrumentEntry(i.key, i.title) for i in instruments]
+                keys = [e.key for e in entries]
+                index = keys.index(start) if start in keys else 0
+                current = instruments[index] if instruments else None
+                del instruments
         except Exception as exc:
             self.app.call_from_thread(self._failed, exc)
             return
-        self.app.call_from_thread(self._loaded, job, instruments, start)
+        self.app.call_from_thread(self._loaded, job, entries, index, current)
 
-    def _loaded(self, job, instruments, start: str | None) -> None:
+    def _loaded(self, job, entries: list[InstrumentEntry], index: int, current) -> None:
         self.job = job
-        self.instruments = instruments
-        keys = [i.key for i in instruments]
-        self.index = keys.index(start) if start in keys else 0
+        self.instruments = entries
+        self.index = index
+        self.current = current
+        instruments = entries
         self.query_one("#heading", Static).update(Text(f"Plan · {job.title} ({job.key})", no_wrap=True,
                                                       overflow="ellipsis"))
         if not instruments:
@@ -191,7 +211,8 @@ class PlanScreen(Screen):
 
     @property
     def instrument(self):
-        return self.instruments[self.index] if self.instruments else None
+        """The full record of the instrument on screen."""
+        return self.current
 
     # -- asking the engine -------------------------------------------------------------------
 
@@ -200,12 +221,15 @@ class PlanScreen(Screen):
         from vetting.appraisal import plan, sweep
 
         worker = get_current_worker()
-        inst = self.instrument
         job = self.job
-        if inst is None or job is None:
+        if not self.instruments or job is None:
             return
+        wanted = self.instruments[self.index].key
         day = as_of(self)
         try:
+            inst = self.current
+            if inst is None or inst.key != wanted:
+                inst = store_of(self, self.store_url).instrument(wanted)
             if self.mode == "cut" and self.raw_cut is not None:
                 result = plan(job, inst, raw_cut=self.raw_cut, norm_key=self.norm_key, as_of=day)
             else:
@@ -218,7 +242,7 @@ class PlanScreen(Screen):
                 self.app.call_from_thread(self._compute_failed, exc)
             return
         if not worker.is_cancelled:
-            self.app.call_from_thread(self._computed, result, swept, key)
+            self.app.call_from_thread(self._computed, result, swept, key, inst)
 
     def _compute_failed(self, exc: Exception) -> None:
         self.error = str(exc)
@@ -226,7 +250,9 @@ class PlanScreen(Screen):
         self.query_one("#figures-text", Static).update(Text(f"✗ {exc}", style="bold"))
         self.notify(str(exc), title="Planner", severity="warning", timeout=8)
 
-    def _computed(self, result, swept, key) -> None:
+    def _computed(self, result, swept, key, inst=None) -> None:
+        if inst is not None:
+            self.current = inst
         self.error = None
         self.cut_plan = result
         self.sweep = swept
