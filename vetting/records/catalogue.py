@@ -8,10 +8,16 @@ Reading happens in three bounded steps, so a hostile file is refused quickly:
    expand), documents nested deeper than a catalogue can be, over-long values, unknown tags
    and more than one document; every node keeps its line number;
 3. rules: the tree is checked field by field against vetting.records.rules (the same rules the
-   editing forms use), collecting every problem (capped) before anything is returned.
+   editing forms use), collecting every problem (capped) before anything is returned. Each
+   instrument and job is checked as soon as it has been read and its nodes are let go, so
+   memory holds one record's nodes plus the checked values, not the whole file's tree.
 
 Nothing here writes to a database; `parse_catalogue` returns plain domain objects or raises
 `CatalogueError` listing `FILE:LINE: path.to.field: what is wrong and what is allowed`.
+
+Writing streams: `emit_catalogue` turns one record at a time into PyYAML events for PyYAML's
+emitter, writing to any text stream; `write_catalogue` does so into a temporary file that
+replaces the target only when complete; `dump_catalogue` returns the text.
 """
 
 from __future__ import annotations
