@@ -187,3 +187,14 @@ def test_reference_document_lists_every_field():
     example = doc.split("```yaml\n", 1)[1].split("```", 1)[0]
     cat = parse_catalogue(example, "docs example")
     assert parse_catalogue(dump_catalogue(cat), "again") == cat
+
+
+@pytest.mark.parametrize("value, shown", [
+    (10**400, "a whole number of about 401 digits"),  # beyond any float: no OverflowError
+    (-(10**400), "a whole number of about 401 digits"),
+    (10**50, str(10**50)),  # exact, not rounded through a float
+])
+def test_a_whole_number_too_large_for_a_float_is_reported_not_crashed(value, shown):
+    message = rules.check_field("instrument", "minutes", value)
+    assert message is not None and message.startswith("must be a number greater than 0")
+    assert message.endswith(shown)

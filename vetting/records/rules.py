@@ -239,6 +239,10 @@ def suggest(name: str, allowed: Sequence[str]) -> str | None:
 
 
 def _fmt(x: float) -> str:
+    if isinstance(x, int):  # exact, and no float conversion (which overflows past about 1e308)
+        if x.bit_length() > 256:
+            return f"a whole number of about {int(x.bit_length() * 0.30103) + 1} digits"
+        return str(x)
     return str(int(x)) if float(x).is_integer() else str(x)
 
 
