@@ -108,7 +108,11 @@ def cmd_export(args: argparse.Namespace) -> int:
         cat = store.export_catalogue(jobs=args.job, instruments=args.instrument)
     target = args.file
     if target == "-":
-        sys.stdout.write(catalogue_io.dump_catalogue(cat))
+        # streamed record by record: the whole text is never held in memory
+        try:
+            catalogue_io.emit_catalogue(cat, sys.stdout)
+        except ValueError as exc:
+            raise CommandError(f"export to standard output stopped part-way: {exc}", EXIT_FAILURE) from None
     else:
         try:
             catalogue_io.write_catalogue(cat, target)
