@@ -179,3 +179,28 @@ def test_a_memo_leaves_the_collector_on_and_its_data_collectable(synthetic_store
     )
     assert done.returncode == 0, done.stderr
     assert done.stdout.split() == ["True", "True"]
+
+
+@pytest.mark.parametrize("fmt", ["svg", "png"])
+def test_charts_are_the_same_without_savefigs_extra_layout_pass(monkeypatch, fmt):
+    # matplotlib's savefig lays a figure out once more when it has a layout engine, which is
+    # what Figure.tight_layout() leaves behind (a placeholder); the charts drop it after their
+    # one tight layout. The file must be exactly what savefig writes with the extra pass.
+    from matplotlib.layout_engine import PlaceHolderLayoutEngine
+
+    from vetting.memo import charts
+
+    doc = _doc()
+    figures = [b.chart for s in doc.sections for b in s.blocks if isinstance(b, Figure)]
+    write = charts.to_svg if fmt == "svg" else charts.to_png
+    ours = [write(c) for c in figures]
+    draw = charts._draw
+
+    def as_tight_layout_leaves_it(chart):
+        fig = draw(chart)
+        assert fig.get_layout_engine() is None
+        fig.set_layout_engine(PlaceHolderLayoutEngine(True, True))
+        return fig
+
+    monkeypatch.setattr(charts, "_draw", as_tight_layout_leaves_it)
+    assert [write(c) for c in figures] == ours

@@ -61,6 +61,11 @@ def _draw(chart: Chart):
     else:  # pragma: no cover - the model has only these two
         raise TypeError(f"unknown chart {type(chart).__name__}")
     fig.tight_layout()
+    # tight_layout() leaves a placeholder layout engine behind, and savefig() then lays the
+    # whole figure out once more (a draw with rendering switched off, "so that a layout engine
+    # works") before drawing it: about a third of each chart's time. The layout is done and
+    # fixed, so the figure is given no engine at all.
+    fig.set_layout_engine(None)
     return fig
 
 
