@@ -20,11 +20,17 @@ Measured at each size (see docs/performance.md for the goals and the latest figu
   summarise    the catalogue table's figures for every instrument (appraisal.summarise)
   filter       one keystroke of the catalogue filter over every row (the interface's filter)
   rank         a stored job ranked with 10,000 robustness draws (records loaded from the database)
-  rank-memory  the same ranking on instruments already in memory, and the bare-numpy baseline
+  rank-memory  the same ranking on instruments already in memory, beside a bare-numpy program doing
+               the same arithmetic for every instrument (bench_appraisal.baseline_all), and the
+               robustness draws alone beside their bare-numpy form
   sweep        the cut-score sweep (99 selection ratios) for the top instrument
   memo-md/-html/-docx   a memo for the job in each format (the memo command's own path)
-  tui-first    the interface's first screen until the catalogue table is filled
-  tui-keys     interactive actions in the interface: a filter keystroke, moving the cursor
+  tui-first    the interface's first usable screen (first_page_s) and until the table is filled
+  tui-keys     every interactive action, each reported on its own (<action>_ms, <action>_max_ms):
+               filter keystroke and clearing, cursor and page moves, opening the instrument
+               editor and its sections, F1-F7 screens, the command palette, Compare's working
+               state and choosing; <screen>_max_stall_ms is the longest the event loop stalled
+               while a results screen worked; the reported figure is the slowest action
   cli-list     `vetting list instruments` as a person runs it (a new process)
 """
 
