@@ -30,7 +30,7 @@ from hypothesis import strategies as st
 from vetting.memo import fingerprint as fpm
 from vetting.memo import render_docx, render_md
 from vetting.memo.build import gather, layout
-from vetting.memo.document import BulletList, Document, Figure, Paragraph, Table
+from vetting.memo.document import BulletList, Document, Facts, Figure, Paragraph, Table
 from vetting.records.store import Store
 from vetting.records.synthetic import generate_catalogue
 
@@ -84,6 +84,8 @@ def test_word_fast_path_matches_python_docx_on_awkward_cells():
     s.add(Table(["One", "Two", "Three", "Four"], rows, caption="Odd text", numeric={3}))
     s.add(Paragraph(" leading and\ttab"))
     s.add(BulletList([" spaced item ", "plain item", "", "tab\titem"]))
+    s.add(Facts([("Plain", "value"), (" Spaced label", "value "), ("", ""), ("Tab\tlabel", "line\nbreak"), ("<b>", "&")]))
+    s.add(Facts([("First\twith a tab", "the row copied for the next"), ("Second", "value")]))
     _same_docx(doc)
 
 

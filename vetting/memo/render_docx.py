@@ -345,17 +345,33 @@ def _add_block(doc, block) -> None:
             _para(doc, _t(item), "List Bullet")
     elif isinstance(block, Facts):
         t = _new_table(doc, 0, 2)
-        for label, value in block.rows:
-            cells = t.add_row().cells
+        fast = not _state(doc).reference
+        proto = None  # the first row, with its widths: later rows are copies with their own text
+        for i, (label, value) in enumerate(block.rows):
+            if proto is not None:
+                tr = copy.copy(proto)
+                _, label_run, value_run = tr.iter(_R)
+                _set_run_text(label_run, _t(label))
+                _set_run_text(value_run, _t(value))
+                t._tbl.append(tr)
+                continue
+            row = t.add_row()
+            cells = row.cells
             cells[0].text = ""
             cells[0].paragraphs[0].add_run(_t(label)).bold = True
             cells[1].text = _t(value)
             for c in cells:
                 c.paragraphs[0].paragraph_format.space_after = Pt(0)
+            # only the first row: rows made before a later prototype would miss their widths
+            if fast and i == 0 and sum(1 for _ in row._tr.iter(_R)) == 3:  # empty run, label, value
+                cells[0].width = Inches(2.2)
+                cells[1].width = Inches(4.3)
+                proto = row._tr
         t.columns[0].width = Inches(2.2)
-        for row in t.rows:
-            row.cells[0].width = Inches(2.2)
-            row.cells[1].width = Inches(4.3)
+        if proto is None:
+            for row in t.rows:
+                row.cells[0].width = Inches(2.2)
+                row.cells[1].width = Inches(4.3)
         doc.add_paragraph().paragraph_format.space_after = Pt(2)
     elif isinstance(block, Table):
         _add_table(doc, block)
