@@ -47,6 +47,8 @@ def baseline(C: np.ndarray, validity_r: np.ndarray, validity_se: np.ndarray, wei
     precision, one fused update per component (the fastest plain form found)."""
     rng = np.random.default_rng(seed)
     m = C.shape[0]
+    if m == 0:  # nothing eligible: nothing to draw
+        return np.zeros(0)
     W = rng.dirichlet(CONCENTRATION * weights, size=draws).astype(np.float32)
     S = np.clip(rng.standard_normal((draws, m), dtype=np.float32), -6, 6)
     S *= (validity_se / 0.5).astype(np.float32)
