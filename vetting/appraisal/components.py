@@ -196,29 +196,45 @@ def validity_detail(instrument: Instrument, policy: Policy) -> ValidityDetail:
     return validity_details([instrument], policy)[0]
 
 
+def synthesise(used_by: list[list[StudyUse]]):
+    """One grouped psychometrics call over every non-empty list of studies used, in order
+    (GroupedValidity), or None when no list has a study. Shared by the ranking's validity
+    details and the catalogue table's summaries, so their figures are the same."""
+    from vetting.psychometrics import validity as pv
+
+    sizes = [len(used) for used in used_by if used]
+    if not sizes:
+        return None
+    rs = np.array([u.r_signed for used in used_by for u in used], dtype=float)
+    ns = np.array([u.n for used in used_by for u in used], dtype=float)
+    return pv.grouped_validity(rs, ns, sizes)
+
+
 def validity_details(instruments: list[Instrument], policy: Policy, ctx: JobContext | None = None) -> list[ValidityDetail]:
     """`validity_detail` of many instruments, with one grouped call to the psychometrics engine
     (the same formulas, applied to every instrument's studies at once)."""
     from vetting.psychometrics import validity as pv
 
-    details: list[ValidityDetail] = []
-    rs: list[float] = []
-    ns: list[int] = []
-    sizes: list[int] = []
-    synthesised: list[ValidityDetail] = []
+    details = []
     for instrument in instruments:
         used, excluded = select_studies(instrument, policy, ctx)
-        detail = ValidityDetail(studies_used=used, studies_excluded=excluded)
-        details.append(detail)
-        if not used:
-            detail.rule = "no relevant criterion-related study"
-            continue
-        rs.extend([u.r_signed for u in used])
-        ns.extend([u.n for u in used])
-        sizes.append(len(used))
-        synthesised.append(detail)
-    if not synthesised:
+        rule = "" if used else "no relevant criterion-related study"
+        details.append(ValidityDetail(rule=rule, studies_used=used, studies_excluded=excluded))
+    grouped = synthesise([d.studies_used for d in details])
+    synthesised = [d for d in details if d.studies_used]
+    if grouped is None:
         return details
+    # For a single study the conservative figure carries no meta-analysis; the bare-bones
+    # summary of one study still gives its r and sampling error for display.
+    rule = pv.CONSERVATIVE_RULE + " (basis: "
+    for detail, meta, value, basis, floored in zip(
+        synthesised, grouped.metas(), grouped.conservative.tolist(), grouped.basis.tolist(), grouped.floored.tolist()
+    ):
+        detail.meta = meta
+        detail.conservative = value
+        detail.rule = rule + basis + ("; floored at 0)" if floored else ")")
+        detail.se_mean_r = meta.se_mean_r
+    return details
     grouped = pv.grouped_validity(np.array(rs, dtype=float), np.array(ns, dtype=float), sizes)
     # For a single study the conservative figure carries no meta-analysis; the bare-bones
     # summary of one study still gives its r and sampling error for display.

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import datetime as dt
 
-import numpy as np
 
 from vetting.appraisal import components as comp
 from vetting.appraisal.gates import choose_reliability
@@ -26,19 +25,14 @@ def summarise(instrument: Instrument, as_of: dt.date | None = None, policy: Poli
 def summarise_all(instruments: list[Instrument], as_of: dt.date | None = None, policy: Policy | None = None) -> list[InstrumentSummary]:
     """`summarise` for every instrument, with the shared set-up (date, policy, engine) done once
     and every conservative validity figure from one grouped call to the psychometrics engine
-    (the same call `components.validity_details` makes, so the figures equal the ranking's)."""
-    from vetting.psychometrics import validity as pv
-
+    (`components.synthesise`, as the ranking's validity details, so the figures are equal)."""
     as_of = as_of or dt.date.today()
     policy = policy or Policy()
     # many small objects and no cycles: the garbage collector would only rescan a large heap
     with gc_pause():
         used_by = [comp.select_studies(i, policy)[0] for i in instruments]
-        rs = [u.r_signed for used in used_by for u in used]
-        ns = [u.n for used in used_by for u in used]
-        sizes = [len(used) for used in used_by if used]
-        values = iter(pv.grouped_validity(np.array(rs, dtype=float), np.array(ns, dtype=float), sizes).conservative.tolist()
-                      if sizes else [])
+        grouped = comp.synthesise(used_by)
+        values = iter(grouped.conservative.tolist() if grouped is not None else [])
         return [_summary(i, as_of, used, next(values) if used else None) for i, used in zip(instruments, used_by)]
 
 
