@@ -51,17 +51,24 @@ def test_instrument_editor_with_a_broken_rule(snap_compare, seeded_url, app_for,
     assert snap_compare(app_for(seeded_url), terminal_size=size, run_before=run_before)
 
 
-@pytest.mark.parametrize("size", SIZES)
-def test_instrument_editor_norms(snap_compare, seeded_url, app_for, size):
+def _editor_section(opener: str, key: str, section: str):
+    """run_before: open the editor (app.open_instrument / open_job) on `key` at `section`."""
+
     async def run_before(pilot):
         await _settle(pilot)
-        pilot.app.open_instrument("tally-quick")
+        getattr(pilot.app, opener)(key)
         await _settle(pilot)
-        pilot.app.screen.query_one("#sections", TabbedContent).active = "norms"
+        pilot.app.screen.query_one("#sections", TabbedContent).active = section
         await _settle(pilot)
         pilot.app.screen.focus_first_input()
         await _settle(pilot)
 
+    return run_before
+
+
+@pytest.mark.parametrize("size", SIZES)
+def test_instrument_editor_norms(snap_compare, seeded_url, app_for, size):
+    run_before = _editor_section("open_instrument", "tally-quick", "norms")
     assert snap_compare(app_for(seeded_url), terminal_size=size, run_before=run_before)
 
 
@@ -77,15 +84,7 @@ def test_jobs(snap_compare, seeded_url, app_for, size):
 
 @pytest.mark.parametrize("size", SIZES)
 def test_job_editor_policy(snap_compare, seeded_url, app_for, size):
-    async def run_before(pilot):
-        await _settle(pilot)
-        pilot.app.open_job("claims-clerk")
-        await _settle(pilot)
-        pilot.app.screen.query_one("#sections", TabbedContent).active = "policy"
-        await _settle(pilot)
-        pilot.app.screen.focus_first_input()
-        await _settle(pilot)
-
+    run_before = _editor_section("open_job", "claims-clerk", "policy")
     assert snap_compare(app_for(seeded_url), terminal_size=size, run_before=run_before)
 
 
