@@ -11,10 +11,10 @@ from __future__ import annotations
 
 import datetime as dt
 import os
-import tracemalloc
 
 import pytest
 
+from tests.records._measure import peak_kib
 from vetting.records import catalogue as cio
 from vetting.records import domain as d
 from vetting.records.catalogue import dump_catalogue, load_catalogue, parse_catalogue, write_catalogue
@@ -409,14 +409,6 @@ def test_problem_list_is_capped():
 # ---------------------------------------------------------------------------
 
 
-def _peak_kib(fn) -> int:
-    tracemalloc.start()
-    try:
-        fn()
-    finally:
-        peak = tracemalloc.get_traced_memory()[1]
-        tracemalloc.stop()
-    return peak // 1024
 
 
 def billion_laughs(levels: int = 9) -> str:
@@ -436,7 +428,7 @@ def test_alias_bomb_is_refused_without_expanding():
             parse_catalogue(text, NAME)
         holder["e"] = info.value
 
-    assert _peak_kib(run) < 2048
+    assert peak_kib(run) < 2048
     assert str(holder["e"].problems[0]) == f"{NAME}:2: YAML anchors (&name) are not allowed in a catalogue; write each value out in full"
 
 
@@ -446,7 +438,7 @@ def test_alias_without_anchor_is_refused():
 
 def test_deep_nesting_is_refused():
     text = "format: 1\nx: " + "[" * 5000 + "]" * 5000 + "\n"
-    assert _peak_kib(lambda: problems_of(text)) < 4096
+    assert peak_kib(lambda: problems_of(text)) < 4096
     assert_problem(text, 2, "", "nest")  # libyaml's own limit or ours, whichever trips first
     text = "format: 1\nx:\n" + "".join("  " * i + f"k{i}:\n" for i in range(1, 60))
     assert_problem(text, line_of(text, "k20:"), "", "nested too deeply")

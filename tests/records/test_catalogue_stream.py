@@ -16,7 +16,6 @@ from __future__ import annotations
 import datetime as dt
 import io
 import os
-import tracemalloc
 from pathlib import Path
 
 import pytest
@@ -25,6 +24,7 @@ from hypothesis import given, settings
 
 from tests.records._reference_dump import reference_dump
 from tests.records.test_fuzz_catalogue import COMMON, catalogues
+from tests.records._measure import peak_kib
 from vetting.records import catalogue as cio
 from vetting.records import domain as d
 from vetting.records.synthetic import generate_catalogue
@@ -152,14 +152,6 @@ def test_a_value_that_cannot_be_written_fails_and_leaves_the_old_file(tmp_path):
     assert os.listdir(folder) == ["out.yaml"]
 
 
-def _peak_kib(fn) -> int:
-    tracemalloc.start()
-    try:
-        fn()
-    finally:
-        peak = tracemalloc.get_traced_memory()[1]
-        tracemalloc.stop()
-    return peak // 1024
 
 
 def test_writing_a_file_holds_about_one_record_not_the_whole_document(tmp_path):
@@ -167,10 +159,10 @@ def test_writing_a_file_holds_about_one_record_not_the_whole_document(tmp_path):
     target = tmp_path / "big.yaml"
     cio.write_catalogue(big, target)  # warm up imports
     big_kib = target.stat().st_size // 1024
-    streamed_big = _peak_kib(lambda: cio.write_catalogue(big, target))
-    streamed_small = _peak_kib(lambda: cio.write_catalogue(small, target))
+    streamed_big = peak_kib(lambda: cio.write_catalogue(big, target))
+    streamed_small = peak_kib(lambda: cio.write_catalogue(small, target))
     small_kib = target.stat().st_size // 1024
-    whole = _peak_kib(lambda: reference_dump(big))
+    whole = peak_kib(lambda: reference_dump(big))
     # the old writer held the node graph and the text: many times the file, growing with it
     assert whole > 10 * big_kib
     # the stream holds one record's data and events, the file buffer and a bounded cache of
