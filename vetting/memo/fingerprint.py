@@ -33,6 +33,16 @@ _NOT_DATACLASS = ()
 _FIELDS: dict[type, tuple[str, ...]] = {}  # field names per dataclass type (() for other types)
 
 
+def _field_names(t: type) -> tuple[str, ...]:
+    """The field names of dataclass type `t` (() for any other type), looked up once per type."""
+    names = _FIELDS.get(t)
+    if names is None:
+        names = _FIELDS[t] = (
+            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
+        )
+    return names
+
+
 def _plain(value: Any) -> Any:
     """Plain JSON-ready data in one pass: the same result as dataclasses.asdict followed by a
     walk over the dicts and lists, without building the intermediate copies."""
@@ -44,11 +54,7 @@ def _plain(value: Any) -> Any:
         return int(value) if value.is_integer() and abs(value) < 2**53 else value
     if t is list or t is tuple:
         return [_plain(v) for v in value]
-    names = _FIELDS.get(t)
-    if names is None:
-        names = _FIELDS[t] = (
-            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
-        )
+    names = _field_names(t)
     if names:
         return {n: _plain(getattr(value, n)) for n in names}
     if isinstance(value, dict):
@@ -74,11 +80,7 @@ def _fields_for_json(value: Any) -> dict:
     are made what _plain makes them (whole-number floats as integers, dates in ISO 8601...)
     where the encoder would write them otherwise; the text is the same as canonical_json's."""
     t = type(value)
-    names = _FIELDS.get(t)
-    if names is None:
-        names = _FIELDS[t] = (
-            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
-        )
+    names = _field_names(t)
     if not names:
         raise TypeError(f"Object of type {t.__name__} is not JSON serializable")
     out = {}
@@ -101,12 +103,7 @@ def _fields_for_json(value: Any) -> dict:
 
 
 def _is_record_type(t: type) -> bool:
-    names = _FIELDS.get(t)
-    if names is None:
-        names = _FIELDS[t] = (
-            tuple(f.name for f in dataclasses.fields(t)) if dataclasses.is_dataclass(t) else _NOT_DATACLASS
-        )
-    return bool(names)
+    return bool(_field_names(t))
 
 
 _RECORD_ENCODER = json.JSONEncoder(
