@@ -235,19 +235,6 @@ def validity_details(instruments: list[Instrument], policy: Policy, ctx: JobCont
         detail.rule = rule + basis + ("; floored at 0)" if floored else ")")
         detail.se_mean_r = meta.se_mean_r
     return details
-    grouped = pv.grouped_validity(np.array(rs, dtype=float), np.array(ns, dtype=float), sizes)
-    # For a single study the conservative figure carries no meta-analysis; the bare-bones
-    # summary of one study still gives its r and sampling error for display.
-    metas = grouped.metas()
-    rule = pv.CONSERVATIVE_RULE + " (basis: "
-    for detail, meta, value, basis, floored in zip(
-        synthesised, metas, grouped.conservative.tolist(), grouped.basis.tolist(), grouped.floored.tolist()
-    ):
-        detail.meta = meta
-        detail.conservative = value
-        detail.rule = rule + basis + ("; floored at 0)" if floored else ")")
-        detail.se_mean_r = meta.se_mean_r
-    return details
 
 
 def validity_component(detail: ValidityDetail) -> tuple[Component, list[AppraisalWarning]]:
