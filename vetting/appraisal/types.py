@@ -33,7 +33,7 @@ CAUTIONS: tuple[str, ...] = (
 )
 
 
-@dataclass
+@dataclass(slots=True)
 class AppraisalWarning:
     """A short machine code (e.g. `reading_grade_unknown`) and a sentence a person can read."""
 
@@ -41,7 +41,7 @@ class AppraisalWarning:
     text: str
 
 
-@dataclass
+@dataclass(slots=True)
 class GateResult:
     """One pass/fail gate. `warning` is set when the gate passed only because evidence is missing."""
 
@@ -56,7 +56,7 @@ class GateResult:
         return "PASS" if self.passed else "FAIL"
 
 
-@dataclass
+@dataclass(slots=True)
 class Component:
     """One scored component.
 
@@ -73,7 +73,7 @@ class Component:
     mapping: str
 
 
-@dataclass
+@dataclass(slots=True)
 class StudyUse:
     """One validity study and whether it entered the synthesis for this job (and why not)."""
 
@@ -89,7 +89,7 @@ class StudyUse:
     reason: str
 
 
-@dataclass
+@dataclass(slots=True)
 class ValidityDetail:
     """How the validity figure was reached for one instrument and one job's policy.
 
@@ -115,7 +115,7 @@ class ValidityDetail:
         return sum(s.n for s in self.studies_used)
 
 
-@dataclass
+@dataclass(slots=True)
 class ReliabilityUsed:
     """The reliability figure used for the gate, the component, SEM and the planner."""
 
@@ -126,7 +126,7 @@ class ReliabilityUsed:
     source: str | None = None
 
 
-@dataclass
+@dataclass(slots=True)
 class InstrumentAppraisal:
     """Everything the engine concluded about one instrument for one job.
 
