@@ -278,6 +278,10 @@ def _rank_memory(url: str):
         laid = ba.lay_out(job, instruments, AS_OF)
         b, _, _ = _repeat(lambda: ba.baseline_all(laid, w, DRAWS, 0), at_least=0.5, most=5)
         extra.update({"numpy_baseline_s": round(b, 4), "ratio_to_numpy": round(seconds / b, 2)})
+        #    and the same baseline starting from the records, as rank() does (laying out timed)
+        br, _, _ = _repeat(lambda: ba.baseline_all(ba.lay_out(job, instruments, AS_OF), w, DRAWS, 0),
+                           at_least=0.5, most=5)
+        extra.update({"numpy_from_records_s": round(br, 4), "ratio_to_numpy_from_records": round(seconds / br, 2)})
         # 2. the robustness arithmetic alone (the draws and the weight flips of the eligible
         #    instruments) against the bare-numpy draws on the same component matrix
         elig = ranking.eligible
