@@ -27,9 +27,9 @@ Measured at each size (see docs/performance.md for the goals and the latest figu
   memo-md/-html/-docx   a memo for the job in each format (the memo command's own path)
   tui-first    the interface's first usable screen (first_page_s) and until the table is filled
   tui-keys     every interactive action, each reported on its own (<action>_ms, <action>_max_ms):
-               filter keystroke and clearing, cursor and page moves, opening the instrument
-               editor and its sections, F1-F7 screens, the command palette, Compare's working
-               state and choosing; <screen>_max_stall_ms is the longest the event loop stalled
+               filter keystroke and clearing, cursor and page moves, sorting, opening the
+               instrument editor and its sections, the job editor, F1-F7 screens, the command
+               palette, Compare's working state and choosing, the planner's keys; <screen>_max_stall_ms is the longest the event loop stalled
                while a results screen worked; the reported figure is the slowest action
   cli-list     `vetting list instruments` as a person runs it (a new process)
 """
@@ -318,14 +318,18 @@ def _tui(url: str, size: int, *, keys: bool):
     key asks for is on screen (the condition named below) and the screen has been painted after
     it (a `call_after_refresh` callback has run). Actions: a filter keystroke (the debounce
     included) until the table shows the filtered rows, Escape clearing the filter, moving the
-    cursor a row and a page, Enter until the instrument editor's form is ready with the cursor
+    cursor a row and a page, sorting by the next column (Ctrl+O, through every column) and
+    reversing it (Ctrl+R) until the new order is shown, Enter until the instrument editor's form is ready with the cursor
     in its first field, the editor's next section (Ctrl+O) until its fields are built, F2 back
     to the catalogue, F1 until the key list is filled, Ctrl+P until the command palette shows,
-    F3 until the Jobs screen is shown (and `jobs_filled_ms`, its worker), F4 until Compare shows
+    F3 until the Jobs screen is shown (and `jobs_filled_ms`, its worker), Enter there until the
+    job editor is ready (`open_job_editor`) and Escape back (`back_to_jobs`), F4 until Compare shows
     its "working" state (then, while the ranking runs in its worker, a key that hides the
     detail panel, `compare_key_while_ranking_ms`; `compare_ranked_s` until the ranked table is
     there; moving its cursor and choosing), F5-F7 until Plan, Gaps and Memo are shown
-    (`<screen>_done_s`: their workers finished). `<screen>_max_stall_ms` is the longest the
+    (`<screen>_done_s`: their workers finished); on Plan, a step of the selection ratio
+    (`plan_step`), the next instrument (`plan_instrument`) and the ratio/cut switch (`plan_mode`),
+    each until the figures for the new choice are there (they are worked out in a worker). `<screen>_max_stall_ms` is the longest the
     interface's event loop went without running while that screen worked (how long a key could
     wait at worst then). The figure reported for tui-keys is the slowest action's median.
     """
@@ -450,6 +454,20 @@ def _tui(url: str, size: int, *, keys: bool):
             row = table.cursor_row
             await act("page_down", "pagedown", lambda: table.cursor_row != row)
 
+        # sorting the catalogue: the next column (Ctrl+O) through every column, then reversing
+        # (Ctrl+R), each until the table shows the new order
+        from vetting.tui.screens.catalogue import COLUMN_IDS
+
+        for _ in range(len(COLUMN_IDS)):
+            before = (screen.sort_column, screen.sort_reverse)
+            await act("sort_next", "ctrl+o", lambda: (screen.sort_column, screen.sort_reverse) != before)
+        for _ in range(3):
+            before = (screen.sort_column, screen.sort_reverse)
+            await act("sort_reverse", "ctrl+r", lambda: (screen.sort_column, screen.sort_reverse) != before)
+        table.focus()
+        table.move_cursor(row=0, animate=False)
+        await pilot.pause()
+
         # the instrument editor: open, step through its sections, back to the catalogue
         for index in range(3):
             await act("open_editor", "enter", lambda: name_of() == "InstrumentEditor" and app.screen.ready
@@ -477,6 +495,13 @@ def _tui(url: str, size: int, *, keys: bool):
             await until(lambda: app.screen.query_one("DataTable").row_count > 0)
             times.setdefault("jobs_filled", []).append(time.perf_counter() - t)
             await settle()
+            jobs_screen = app.screen
+            jobs_table = jobs_screen.query_one("DataTable")
+            jobs_table.focus()
+            await pilot.pause()
+            await act("open_job_editor", "enter", lambda: name_of() == "JobEditor" and app.screen.ready
+                      and app.screen.focused is not None)
+            await act("back_to_jobs", "escape", lambda: app.screen is jobs_screen)
             await act("back_to_catalogue", "f2", lambda: app.screen is screen)
 
         # the results screens: F4-F7 from the catalogue; the key's response, then the work
@@ -501,6 +526,18 @@ def _tui(url: str, size: int, *, keys: bool):
             await settle()
             out[f"{name}_done_s"] = time.perf_counter() - started
             out[f"{name}_max_stall_ms"] = 1000 * loop_stall["max"]
+            if name == "plan" and getattr(results_screen, "cut_plan", None) is not None:
+                # the planner's keys: a step of the selection ratio, the next instrument, the
+                # ratio/cut switch, each until the figures for the new choice are shown
+                for key_, action in (("right", "plan_step"), ("right", "plan_step"), ("left", "plan_step"),
+                                     ("i", "plan_instrument"), ("i", "plan_instrument"),
+                                     ("m", "plan_mode"), ("m", "plan_mode")):
+                    before = results_screen.cut_plan
+                    if before is None or (key_ == "m" and results_screen.mode == "ratio" and before.cut.raw is None):
+                        continue  # no figures, or no norm group for a raw cut: the key only explains
+                    await act(action, key_, lambda: results_screen.cut_plan is not before
+                              or results_screen.error is not None)
+                    await settle()
             if name == "compare" and results_screen.ranking is not None:
                 ranking_table = results_screen.query_one("DataTable")
                 ranking_table.focus()
@@ -527,9 +564,11 @@ def _tui(url: str, size: int, *, keys: bool):
     if not keys:
         seconds = out["table_filled_s"]
     else:
-        interactive = ("filter_key", "filter_clear", "cursor_move", "page_down", "open_editor", "editor_section",
-                       "back_to_catalogue", "help", "help_close", "palette", "palette_close", "jobs", "compare",
-                       "compare_key_while_ranking", "compare_cursor", "compare_choose", "plan", "gaps", "memo")
+        interactive = ("filter_key", "filter_clear", "cursor_move", "page_down", "sort_next", "sort_reverse",
+                       "open_editor", "editor_section", "back_to_catalogue", "help", "help_close", "palette",
+                       "palette_close", "jobs", "open_job_editor", "back_to_jobs", "compare",
+                       "compare_key_while_ranking", "compare_cursor", "compare_choose", "plan", "plan_step",
+                       "plan_instrument", "plan_mode", "gaps", "memo")
         medians = [out[f"{name}_ms"] for name in interactive if f"{name}_ms" in out]
         seconds = max(medians) / 1000 if medians else None
         if medians:
