@@ -20,11 +20,12 @@ from dataclasses import dataclass
 from typing import Any
 
 from textual.app import ComposeResult
-from textual.containers import Horizontal, Vertical
+from textual.containers import Vertical
+from textual.content import Content
 from textual.message import Message
 from textual.suggester import SuggestFromList
 from textual.widget import Widget
-from textual.widgets import Input, Label, Static
+from textual.widgets import Input, Static
 
 from vetting.records import rules
 from vetting.records.domain import FITS, Measure, PercentilePoint
@@ -195,22 +196,30 @@ class RuleField(Widget):
 
     def compose(self) -> ComposeResult:
         spec = self.spec
-        mark = " *" if spec.required else ""
-        with Horizontal(classes="field-row"):
-            yield Label(spec.title + mark, classes="field-label")
-            choices = spec.choices()
-            suggester = SuggestFromList(choices, case_sensitive=False) if choices else None
-            self._input = Input(
-                value=self.initial,
-                placeholder=spec.hint(),
-                suggester=suggester,
-                classes="field-input",
-                disabled=self._disabled_input,
-                id=f"in-{spec.name}",
-            )
-            yield self._input
-        # the message line below the field is added the first time there is something to say
-        # (most fields never need one: fewer widgets make a form quicker to open)
+        choices = spec.choices()
+        suggester = SuggestFromList(choices, case_sensitive=False) if choices else None
+        self._input = Input(
+            value=self.initial,
+            placeholder=spec.hint(),
+            suggester=suggester,
+            # "-valid" from the start: Input marks itself valid when its value is first set
+            # (it has no validators of its own), which would restyle it once more on mounting
+            classes="field-input -valid",
+            disabled=self._disabled_input,
+            id=f"in-{spec.name}",
+        )
+        yield self._input
+        # The label is this widget's own content (drawn left of the input, which sits in the
+        # margin after it); the message line below the field is added the first time there is
+        # something to say (most fields never need one). Two widgets a field instead of four
+        # make a form quicker to open.
+
+    def render(self) -> Content:
+        spec = self.spec
+        label = spec.title + (" *" if spec.required else "")
+        # the colour is the widget's (form.tcss: muted, or the error colour when a rule breaks);
+        # bold is set here, as a style of the text, so the input does not inherit it
+        return Content.styled(label, "bold" if self.has_class("-invalid") else "")
 
     def on_mount(self) -> None:
         self.check()
@@ -248,8 +257,7 @@ class RuleField(Widget):
         message = self._message
         if message is None:
             if not (problem or self.note):
-                self.set_class(False, "-invalid")
-                self.input.set_class(False, "-invalid")
+                self._mark_invalid(False)
                 return
             message = self._message = Static("", classes="field-message", markup=False)
             self.mount(message)
@@ -262,8 +270,13 @@ class RuleField(Widget):
         message.set_class(bool(problem), "-error")
         message.set_class(not problem and bool(self.note), "-note")
         message.display = bool(problem or self.note)
-        self.set_class(bool(problem), "-invalid")
-        self.input.set_class(bool(problem), "-invalid")
+        self._mark_invalid(bool(problem))
+
+    def _mark_invalid(self, invalid: bool) -> None:
+        if self.has_class("-invalid") != invalid:
+            self.set_class(invalid, "-invalid")
+            self.refresh()  # the label's weight
+        self.input.set_class(invalid, "-invalid")
 
     def reveal(self) -> None:
         """Show every problem, including 'is required' on fields never typed in."""
