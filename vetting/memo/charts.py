@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import io
 import re
+import threading
 
 from vetting.memo.document import Chart, DistributionChart, SweepChart
 
@@ -34,9 +35,44 @@ _STYLE = {
 }
 
 
+_loaded = False
+_load_lock = threading.Lock()
+
+
+def _import_matplotlib() -> None:
+    import matplotlib  # noqa: F401
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.figure  # noqa: F401
+
+
 def _mpl():
     """matplotlib's object API only (Figure + the Agg canvas): no pyplot, no global figure
-    manager, no interactive backend machinery to load."""
+    manager, no interactive backend machinery to load.
+
+    The first import runs on a short-lived thread of its own. Importing matplotlib raises and
+    keeps exceptions (its font-pattern parser, pyparsing, keeps their tracebacks), and a
+    traceback's frames link back to every caller's frame: imported inside a memo, those frames
+    held the memo's frames and so all its data in reference cycles, freed only by a collection
+    of the generation they had reached. On a thread of its own the import's frames reach no
+    frame of the caller."""
+    global _loaded
+    if not _loaded:
+        with _load_lock:
+            if not _loaded:
+                problem = []
+
+                def load() -> None:
+                    try:
+                        _import_matplotlib()
+                    except BaseException as exc:  # re-raised in the caller's thread
+                        problem.append(exc)
+
+                worker = threading.Thread(target=load, name="vetting-matplotlib-import", daemon=True)
+                worker.start()
+                worker.join()
+                if problem:
+                    raise problem[0]
+                _loaded = True
     import matplotlib
 
     return matplotlib
@@ -48,6 +84,7 @@ def _safe(text: str) -> str:
 
 
 def _draw(chart: Chart):
+    _mpl()
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 

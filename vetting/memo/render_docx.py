@@ -76,10 +76,135 @@ class _State:
         self.block_width = None  # the text width, as python-docx's Document.add_table uses it
         self.next_shape_id: int | None = None  # the next drawing id, as StoryPart.next_id gives it
         self.sectPr = None  # the body's section properties, always its last child
+        self.spliced: list[str] = []  # XML text of rows and paragraphs written as text (_Splice)
 
 
 def _state(doc) -> _State:
     return doc.__dict__["_vetting_state"]
+
+
+def _cells(doc, row, table):
+    """row.cells for the rows we make (no merged or spanned cells). python-docx walks the cells
+    with a recursive nested function, a reference cycle that holds the row and through it the
+    whole XML tree until the cyclic collector finds it; the memo drops everything before the
+    collector runs again, so the fast path builds the same cell objects directly."""
+    from docx.table import _Cell
+
+    if _state(doc).reference:
+        return row.cells
+    return tuple(_Cell(tc, table) for tc in row._tr.tc_lst)
+
+
+_SPLICE = "vetting-splice-"
+_SPLICE_RE = re.compile(rb"<!--vetting-splice-(\d+)-->")
+_MARK = re.compile("<w:t>\ue000(\\d+)\ue001</w:t>")
+
+
+def _xml_text(value: str) -> str:
+    """Character data as XML text (what lxml writes back for it once parsed)."""
+    if "&" in value:
+        value = value.replace("&", "&amp;")
+    if "<" in value:
+        value = value.replace("<", "&lt;")
+    if ">" in value:
+        value = value.replace(">", "&gt;")
+    return value
+
+
+class _Splice:
+    """Rows or paragraphs that are copies of a prototype element with their own run texts,
+    written as XML text instead of as elements: a comment marks their place in the tree and
+    the serialized document part gets the text there (render() below). The same XML as copying
+    the prototype and setting each run's text (`_set_run_text`) would serialize to, without
+    building, and then serializing, tens of thousands of elements at 10,000 instruments.
+
+    The prototype's runs must each be `[w:rPr] w:t` (one run per value, in document order).
+    Texts holding tabs or line breaks (python-docx writes w:tab/w:br for them) are not taken:
+    `add` returns False and the caller places that one the slow way."""
+
+    def __init__(self, doc, proto, parent, before=None) -> None:
+        self.state = _state(doc)
+        self.parent, self.before = parent, before
+        self.chunk: list[str] = []
+        mark = copy.copy(proto)
+        runs = list(mark.iter(_R))
+        for i, r in enumerate(runs):
+            _set_run_text(r, f"\ue000{i}\ue001")
+        from lxml import etree
+
+        text = etree.tostring(mark, encoding="unicode")
+        # the copy stands alone, so its root declares the namespaces it uses; in the document
+        # they are declared on the root element, and the rows or paragraphs carry none
+        end = text.index(">")
+        head = re.sub(r' xmlns(:\w+)?="[^"]*"', "", text[:end])
+        text = head + text[end:]
+        parts = _MARK.split(text)
+        self.ok = parts[1::2] == [str(i) for i in range(len(runs))] and "\ue000" not in "".join(parts[0::2])
+        self.pieces = parts[0::2]
+        self.n = len(runs)
+
+    def add(self, values) -> bool:
+        if not self.ok or len(values) != self.n:
+            return False
+        out = []
+        pieces = self.pieces
+        for piece, value in zip(pieces, values):
+            out.append(piece)
+            if not value:
+                continue  # an empty run: no w:t, as python-docx writes it
+            if not _BREAKS.isdisjoint(value):
+                return False
+            # python-docx: xml:space="preserve" exactly when the text has leading or trailing space
+            out.append('<w:t xml:space="preserve">' if len(value.strip()) < len(value) else "<w:t>")
+            out.append(_xml_text(value))
+            out.append("</w:t>")
+        out.append(pieces[-1])
+        self.chunk.append("".join(out))
+        return True
+
+    def flush(self) -> None:
+        """Mark the place of the texts added so far (call before placing an element the slow way)."""
+        if not self.chunk:
+            return
+        from lxml import etree
+
+        spliced = self.state.spliced
+        mark = etree.Comment(f"{_SPLICE}{len(spliced)}")
+        spliced.append("".join(self.chunk))
+        self.chunk = []
+        if self.before is not None:
+            self.before.addprevious(mark)
+        else:
+            self.parent.append(mark)
+
+
+def _save(doc, buf) -> None:
+    """doc.save(buf), with the spliced texts put in place of their marks in the document part."""
+    from docx.opc.oxml import serialize_part_xml
+    from docx.opc.pkgwriter import PackageWriter
+
+    spliced = _state(doc).spliced
+    if not spliced:
+        doc.save(buf)
+        return
+    package = doc.part.package
+    parts = package.parts
+    for part in parts:
+        part.before_marshal()  # as OpcPackage.save
+    xml = serialize_part_xml(doc.part.element)
+    pieces = _SPLICE_RE.split(xml)
+    blob = b"".join(p if i % 2 == 0 else spliced[int(p)].encode("utf-8") for i, p in enumerate(pieces))
+    PackageWriter.write(buf, package.rels, [_PartWithBlob(p, blob) if p is doc.part else p for p in parts])
+
+
+class _PartWithBlob:
+    """A package part with its serialized bytes given (everything else is the part's own)."""
+
+    def __init__(self, part, blob: bytes) -> None:
+        self._part, self.blob = part, blob
+
+    def __getattr__(self, name):
+        return getattr(self._part, name)
 
 
 def _para(doc, text: str, style: str):
@@ -120,6 +245,25 @@ def _para(doc, text: str, style: str):
         if plain:
             protos[(style, True)] = copy.copy(p._p)
     return p
+
+
+def _paragraphs(doc, texts: list[str], style: str) -> None:
+    """_para(doc, text, style) for each text; after the first plain one, plain texts are
+    written as XML text (_Splice), copies of that paragraph."""
+    st = _state(doc)
+    splice = None
+    for text in texts:
+        if splice is not None and text and splice.add((text,)):
+            continue
+        if splice is not None:
+            splice.flush()
+        _para(doc, text, style)
+        if splice is None and not st.reference:
+            proto = st.paragraphs.get((style, True))
+            if proto is not None and sum(1 for _ in proto.iter(_R)) == 1:
+                splice = _Splice(doc, proto, doc.element.body, before=st.sectPr)
+    if splice is not None:
+        splice.flush()
 
 
 def _new_table(doc, rows: int, cols: int):
@@ -238,7 +382,7 @@ def _add_table(doc, table: Table) -> None:
     def fill(row, values) -> None:
         # one pass per row: python-docx rebuilds the row's cell list on every `row.cells`
         _keep_row_together(row)
-        for i, cell in enumerate(row.cells):
+        for i, cell in enumerate(_cells(doc, row, t)):
             if i < len(values):
                 cell.text = _t(values[i])
             cell.width = widths[i]
@@ -254,23 +398,33 @@ def _add_table(doc, table: Table) -> None:
     fill(hdr, table.columns)
     # the rows after the first full one are copies of it with their own text: the same XML as
     # filling each through python-docx, without rebuilding the formatting cell by cell (at a
-    # thousand candidates that was most of the Word memo's time)
+    # thousand candidates that was most of the Word memo's time), written as XML text (_Splice)
     full = len(table.columns)
     proto = None
+    splice = None
     tbl = t._tbl
     fast = not _state(doc).reference
     for values in table.rows:
+        if splice is not None and splice.add([_t(v) for v in values]):
+            continue
         if proto is not None and len(values) == full:
+            if splice is not None:
+                splice.flush()
             tr = copy.copy(proto)  # lxml: a copy of the whole row
             # the copy's runs, one per cell in cell order (checked on the first full row)
             for r, value in zip(tr.iter(_R), values):
                 _set_run_text(r, _t(value))
             tbl.append(tr)
             continue
+        if splice is not None:
+            splice.flush()
         row = t.add_row()
         fill(row, values)
-        if fast and len(values) == full and _one_run_per_cell(row._tr):
+        if fast and proto is None and len(values) == full and _one_run_per_cell(row._tr):
             proto = row._tr
+            splice = _Splice(doc, proto, tbl)
+    if splice is not None:
+        splice.flush()
     t.autofit = False
     for i, width in enumerate(widths):
         t.columns[i].width = width
@@ -341,8 +495,7 @@ def _add_block(doc, block) -> None:
             run.font.size = Pt(8.5)
             run.font.color.rgb = RGBColor(0x52, 0x60, 0x6D)
     elif isinstance(block, BulletList):
-        for item in block.items:
-            _para(doc, _t(item), "List Bullet")
+        _paragraphs(doc, [_t(item) for item in block.items], "List Bullet")
     elif isinstance(block, Facts):
         t = _new_table(doc, 0, 2)
         fast = not _state(doc).reference
@@ -356,7 +509,7 @@ def _add_block(doc, block) -> None:
                 t._tbl.append(tr)
                 continue
             row = t.add_row()
-            cells = row.cells
+            cells = _cells(doc, row, t)
             cells[0].text = ""
             cells[0].paragraphs[0].add_run(_t(label)).bold = True
             cells[1].text = _t(value)
@@ -370,15 +523,16 @@ def _add_block(doc, block) -> None:
         t.columns[0].width = Inches(2.2)
         if proto is None:
             for row in t.rows:
-                row.cells[0].width = Inches(2.2)
-                row.cells[1].width = Inches(4.3)
+                cells = _cells(doc, row, t)
+                cells[0].width = Inches(2.2)
+                cells[1].width = Inches(4.3)
         doc.add_paragraph().paragraph_format.space_after = Pt(2)
     elif isinstance(block, Table):
         _add_table(doc, block)
     elif isinstance(block, Callout):
         kind = block.kind if block.kind in _CALLOUT_FILL else "note"
         t = _new_table(doc, 1, 1)
-        cell = t.rows[0].cells[0]
+        cell = _cells(doc, t.rows[0], t)[0]
         _keep_row_together(t.rows[0])
         _shade(cell, _CALLOUT_FILL[kind], _CALLOUT_EDGE[kind])
         cell.text = ""
@@ -470,7 +624,10 @@ def render(doc_model: Document, *, reference: bool = False) -> bytes:
     _add_stamp_part(doc, json.dumps(doc_model.stamp, sort_keys=True, separators=(",", ":"), ensure_ascii=True))
 
     buf = io.BytesIO()
-    doc.save(buf)
+    if reference:
+        doc.save(buf)
+    else:
+        _save(doc, buf)
     return buf.getvalue()
 
 
