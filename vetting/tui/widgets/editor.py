@@ -52,6 +52,7 @@ class EditorScreen(Screen):
         self._initial_by_pane: dict[str, tuple] = {}
         self._builders: dict[str, Any] = {}
         self.ready = False
+        self.load_failed = False
         self.saving = False
 
     # -- layout ------------------------------------------------------------------------------
@@ -88,6 +89,8 @@ class EditorScreen(Screen):
         self.app.call_from_thread(self._show_record, record)
 
     def _load_failed(self, exc: Exception) -> None:
+        self.load_failed = True
+        self.refresh_bindings()
         self.banner(f"✗ Could not open {self.record_label}: {exc}", error=True)
         self.query_one("#body").remove_children()
 
@@ -95,23 +98,33 @@ class EditorScreen(Screen):
         self.original = record
         body = self.query_one("#body", Vertical)
         # Every section's tab and (empty) pane, and the first section's fields, are put together
-        # first and mounted at once: one layout pass instead of one per section.
+        # first and mounted at once: one layout pass instead of one per section. A section not
+        # built yet is an empty pane (its scrolling area comes with its fields).
         tabs = TabbedContent(id="sections")
         self._builders = {}
         built: list[str] = []
         for index, (pane_id, title, builder) in enumerate(self.sections()):
             self._builders[pane_id] = builder
-            children = builder() if index == 0 or not self.LAZY else []
             if index == 0 or not self.LAZY:
                 self._initial_by_pane[pane_id] = ()  # building
                 built.append(pane_id)
-            tabs.compose_add_child(TabPane(title, VerticalScroll(*children, classes="section"), id=pane_id))
-        await body.remove_children()
-        await body.mount(tabs)
+                tabs.compose_add_child(TabPane(title, self._section(builder()), id=pane_id))
+            else:
+                tabs.compose_add_child(TabPane(title, id=pane_id))
+        # no layout or paint of the half-mounted form while it is put in place
+        with self.app.batch_update():
+            await body.remove_children()
+            await body.mount(tabs)
+            self.ready = True
+            # the cursor goes to the first field before the form is first painted (focusing
+            # after that paint cost a second layout and paint)
+            self._after_show()
         for pane_id in built:
             self.call_after_refresh(self._remember, pane_id)
-        self.ready = True
-        self.call_after_refresh(self._after_show)
+
+    @staticmethod
+    def _section(children: list[Any]) -> VerticalScroll:
+        return VerticalScroll(*children, classes="section")
 
     async def build_pane(self, pane_id: str) -> None:
         """Mount a section's fields (done the first time the section is shown)."""
@@ -119,8 +132,7 @@ class EditorScreen(Screen):
             return
         self._initial_by_pane[pane_id] = ()  # building
         tabs = self.query_one("#sections", TabbedContent)
-        scroll = tabs.get_pane(pane_id).query_one(VerticalScroll)
-        await scroll.mount_all(self._builders[pane_id]())
+        await tabs.get_pane(pane_id).mount(self._section(self._builders[pane_id]()))
         self.call_after_refresh(self._remember, pane_id)
 
     def _remember(self, pane_id: str) -> None:
@@ -149,7 +161,9 @@ class EditorScreen(Screen):
             return
         for field in pane.query(RuleField):
             if not field.input.disabled:
-                field.input.focus()
+                # at once (Widget.focus waits for the next turn of the loop, often after a
+                # paint, and the focus change then costs a second layout and paint)
+                self.set_focus(field.input)
                 return
 
     def current_pane(self) -> TabPane | None:
@@ -206,8 +220,12 @@ class EditorScreen(Screen):
 
     # -- keys --------------------------------------------------------------------------------
 
+    #: the form's own keys (shown while the record loads, so the key line is drawn once; they
+    #: act only once the form is there, and are hidden if the record could not be read)
+    FORM_ACTIONS = frozenset({"save", "add_entry", "remove_entry", "next_section", "previous_section"})
+
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-        if action in {"save", "add_entry", "remove_entry", "next_section", "previous_section"} and not self.ready:
+        if action in self.FORM_ACTIONS and self.load_failed:
             return None
         if action == "add_entry" and self._current_list() is None:
             return None
@@ -221,6 +239,8 @@ class EditorScreen(Screen):
         return lists[-1] if lists else None
 
     async def action_add_entry(self) -> None:
+        if not self.ready:
+            return
         target = self._current_list()
         focused_block = block_of(self.focused)
         if focused_block is not None and isinstance(focused_block.parent, RecordList):
@@ -238,6 +258,8 @@ class EditorScreen(Screen):
             block.scroll_visible()
 
     async def action_remove_entry(self) -> None:
+        if not self.ready:
+            return
         block = block_of(self.focused)
         if block is None or not isinstance(block.parent, RecordList):
             self.notify("Put the cursor in a record of a list first (this one cannot be removed).",
@@ -250,20 +272,27 @@ class EditorScreen(Screen):
             self._focus_block(remaining[-1])
         self.notify(f"Removed one {owner.noun} record (not saved yet: F9 saves).")
 
-    def action_next_section(self) -> None:
-        self._step_section(1)
+    async def action_next_section(self) -> None:
+        await self._step_section(1)
 
-    def action_previous_section(self) -> None:
-        self._step_section(-1)
+    async def action_previous_section(self) -> None:
+        await self._step_section(-1)
 
-    def _step_section(self, step: int) -> None:
+    async def _step_section(self, step: int) -> None:
+        if not self.ready:
+            return
         tabs = self.query_one("#sections", TabbedContent)
         ids = [pane.id for pane in tabs.query(TabPane)]
         if not ids:
             return
         index = ids.index(tabs.active) if tabs.active in ids else 0
-        tabs.active = ids[(index + step) % len(ids)]
-        self.call_after_refresh(self.focus_first_input)
+        target = ids[(index + step) % len(ids)]
+        # build the section while it is still hidden, then show it with the cursor in its first
+        # field: one layout and paint (showing the empty section first cost another)
+        with self.app.batch_update():
+            await self.build_pane(target)
+            tabs.active = target
+            self.focus_first_input()
 
     def action_leave(self) -> None:
         self.app.after_confirming(self._close)
@@ -286,7 +315,7 @@ class EditorScreen(Screen):
         self.call_after_refresh(field.input.focus)
 
     def action_save(self) -> None:
-        if self.saving:
+        if self.saving or not self.ready:
             return
         problems = self.problems()
         extra = self.extra_problems()
