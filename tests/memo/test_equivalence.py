@@ -236,3 +236,20 @@ def test_charts_are_the_same_without_savefigs_extra_layout_pass(monkeypatch, fmt
 
     monkeypatch.setattr(charts, "_draw", as_tight_layout_leaves_it)
     assert [write(c) for c in figures] == ours
+
+
+_CELL_TEXT = st.text(alphabet=st.sampled_from(list("ab é{}0 \u00a0\u2028\x85&<>\"'\t\n\r\x00\x0b\x1f\ufffe")), max_size=6)
+
+
+@settings(max_examples=25, deadline=None)
+@given(rows=st.lists(st.lists(_CELL_TEXT, min_size=3, max_size=3), min_size=2, max_size=8),
+       items=st.lists(_CELL_TEXT, min_size=2, max_size=6))
+def test_word_rows_written_as_xml_text_match_python_docx(rows, items):
+    # rows and list items after the first are written as XML text (render_docx._Splice), with
+    # a shortcut for texts with no markup character, break or edge space: whatever the text,
+    # the part must be what python-docx's own calls write
+    doc = Document(title="T", subtitle="S")
+    s = doc.section("s", "S")
+    s.add(Table(["A", "B", "C"], [["first", "full", "row"]] + rows, numeric={2}))
+    s.add(BulletList(["first item"] + items))
+    _same_docx(doc)

@@ -100,6 +100,26 @@ _SPLICE_RE = re.compile(rb"<!--vetting-splice-(\d+)-->")
 _MARK = re.compile("<w:t>\ue000(\\d+)\ue001</w:t>")
 
 
+#: A character _t() replaces, a tab or line break, an XML markup character, or white space
+#: other than the plain space (str.isspace(): whether str.strip() removes it).
+_ROW_SPECIAL = re.compile(
+    "[\x01-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff\t\r\n&<>"
+    "\x85\xa0\u1680\u2000-\u200a\u2028\u2029\u202f\u205f\u3000]"
+)
+
+
+def _plain_texts(joined: str) -> bool:
+    """Whether texts joined by NUL need none of _Splice.add's care: no character _ROW_SPECIAL
+    finds and no plain space at the start or end of any text."""
+    return (
+        _ROW_SPECIAL.search(joined) is None
+        and joined[:1] != " "
+        and joined[-1:] != " "
+        and " \x00" not in joined
+        and "\x00 " not in joined
+    )
+
+
 def _xml_text(value: str) -> str:
     """Character data as XML text (what lxml writes back for it once parsed)."""
     if "&" in value:
@@ -142,14 +162,26 @@ class _Splice:
         self.ok = parts[1::2] == [str(i) for i in range(len(runs))] and "\ue000" not in "".join(parts[0::2])
         self.pieces = parts[0::2]
         self.n = len(runs)
+        # the usual row (every text non-empty, none with markup characters, line breaks or
+        # leading/trailing space) is one str.format of this
+        self.template = "<w:t>{}</w:t>".join(p.replace("{", "{{").replace("}", "}}") for p in self.pieces)
 
     def add(self, values) -> bool:
+        """Add a row (or paragraph) of texts as given to python-docx, before _t()."""
         if not self.ok or len(values) != self.n:
             return False
+        try:
+            joined = "\x00".join(values)
+        except TypeError:  # not all text: each value through _t() below
+            joined = None
+        if joined is not None and all(values) and _plain_texts(joined) and joined.count("\x00") == self.n - 1:
+            self.chunk.append(self.template.format(*values))
+            return True
         out = []
         pieces = self.pieces
         for piece, value in zip(pieces, values):
             out.append(piece)
+            value = _t(value)
             if not value:
                 continue  # an empty run: no w:t, as python-docx writes it
             if not _BREAKS.isdisjoint(value):
@@ -248,7 +280,7 @@ def _para(doc, text: str, style: str):
 
 
 def _paragraphs(doc, texts: list[str], style: str) -> None:
-    """_para(doc, text, style) for each text; after the first plain one, plain texts are
+    """_para(doc, _t(text), style) for each text; after the first plain one, plain texts are
     written as XML text (_Splice), copies of that paragraph."""
     st = _state(doc)
     splice = None
@@ -257,7 +289,7 @@ def _paragraphs(doc, texts: list[str], style: str) -> None:
             continue
         if splice is not None:
             splice.flush()
-        _para(doc, text, style)
+        _para(doc, _t(text), style)
         if splice is None and not st.reference:
             proto = st.paragraphs.get((style, True))
             if proto is not None and sum(1 for _ in proto.iter(_R)) == 1:
@@ -405,7 +437,7 @@ def _add_table(doc, table: Table) -> None:
     tbl = t._tbl
     fast = not _state(doc).reference
     for values in table.rows:
-        if splice is not None and splice.add([_t(v) for v in values]):
+        if splice is not None and splice.add(values):
             continue
         if proto is not None and len(values) == full:
             if splice is not None:
@@ -495,7 +527,7 @@ def _add_block(doc, block) -> None:
             run.font.size = Pt(8.5)
             run.font.color.rgb = RGBColor(0x52, 0x60, 0x6D)
     elif isinstance(block, BulletList):
-        _paragraphs(doc, [_t(item) for item in block.items], "List Bullet")
+        _paragraphs(doc, block.items, "List Bullet")
     elif isinstance(block, Facts):
         t = _new_table(doc, 0, 2)
         fast = not _state(doc).reference
