@@ -48,9 +48,36 @@ def _table(table: Table) -> list[str]:
         "|" + "|".join("---:" if i in table.numeric else "---" for i in range(len(table.columns))) + "|"
     )
     for row in table.rows:
+        try:
+            joined = "\x00".join(row)
+        except TypeError:  # not all text: escape() below says what it makes of it
+            joined = None
+        if joined is not None and all(row) and joined.count("\x00") == len(row) - 1 and _as_is(joined):
+            out.append("| " + " | ".join(row) + " |")  # escape() would give back every cell as it is
+            continue
         cells = [escape(c) if c != "" else " " for c in row]
         out.append("| " + " | ".join(cells) + " |")
     return out + [""]
+
+
+#: A character inline() escapes, or white space it would change (all but the plain space).
+_TOUCHED = re.compile(r"[\\`*_\[\]<>|#~\t\n\r\x0b\x0c\x1c-\x1f\x85\xa0\u1680\u2000-\u200a\u2028\u2029\u202f\u205f\u3000]")
+_LIST_AFTER_NUL = re.compile(r"(?:^|\x00)\d+[.)] ")
+
+
+def _as_is(joined: str) -> bool:
+    """Whether escape() leaves each of the texts joined by NUL as it is (none holding NUL):
+    no character it escapes, no white space but single plain spaces between words, and no
+    list marker ('-', '+', '1.' or '1)' and a space) at the start of a text."""
+    if _TOUCHED.search(joined) is not None:
+        return False
+    if "  " in joined or " \x00" in joined or "\x00 " in joined or joined[:1] == " " or joined[-1:] == " ":
+        return False
+    if joined[:2] in ("- ", "+ ") or "\x00- " in joined or "\x00+ " in joined:
+        return False
+    if (". " in joined or ") " in joined) and _LIST_AFTER_NUL.search(joined) is not None:
+        return False
+    return True
 
 
 def _block(block) -> list[str]:
