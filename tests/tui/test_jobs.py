@@ -204,3 +204,40 @@ async def test_lock_key_works_while_typing_in_a_field(seeded_url, app_for, settl
         assert title.input.value == "Claims clerk"
     with Store.open(seeded_url) as store:
         assert store.policy_versions("claims-clerk")[0].locked
+
+
+async def test_sections_never_shown_keep_what_is_stored(seeded_url, app_for, settle):
+    """A stored job builds its requirements and policy only when they are first shown (a job
+    may need dozens of attributes). Saving after changing the title alone keeps the stored
+    requirements and policy exactly (no new policy version); shown afterwards, they hold the
+    stored values and count as unchanged."""
+    with Store.open(seeded_url) as store:
+        before = store.job("claims-clerk")
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        assert not editor.built("requirements") and not editor.built("policy")
+        title = editor.query_one(".job-profile", RecordBlock).fields["title"]
+        await _type_into(pilot, title, "Claims clerk II")
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        reqs = editor.query_one("#list-requirements", RecordList)
+        assert [b.fields["attribute"].text for b in reqs.blocks] == [r.attribute for r in before.requirements]
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert "v1 open" in str(editor.query_one("#policy-state").render())
+        assert not editor.is_dirty()
+    with Store.open(seeded_url) as store:
+        after = store.job("claims-clerk")
+        assert after.title == "Claims clerk II"
+        assert [(r.attribute, r.importance, r.critical) for r in after.requirements] == [
+            (r.attribute, r.importance, r.critical) for r in before.requirements
+        ]
+        assert after.policy.version == before.policy.version == 1
+        assert len(store.policy_versions("claims-clerk")) == 1

@@ -183,7 +183,6 @@ class JobEditor(EditorScreen):
     CSS_PATH = ["../widgets/form.tcss", "../widgets/editor.tcss"]
     kind_label = "Job"
     nav_place = "jobs"
-    LAZY = False  # three short sections; all are checked before saving
     BINDINGS = [
         # priority: a text field would otherwise take ctrl+k (delete to the end of the line)
         Binding("ctrl+k", "lock_policy", "Lock policy", id="job.lock", priority=True,
@@ -195,6 +194,12 @@ class JobEditor(EditorScreen):
         self.record_label = f"job {key}" if key else "the new job"
         self.known_attributes: set[str] = set()
         self.versions: list[Policy] = []
+
+    def lazy(self) -> bool:
+        """A stored job builds its requirements and policy when they are first shown (a job
+        may need dozens of attributes); a section never shown keeps what is stored. A new job
+        builds them all: its one blank requirement and its policy are checked before saving."""
+        return self.original is not None
 
     def load_record(self) -> Job | None:
         data = self.app.data
@@ -246,6 +251,10 @@ class JobEditor(EditorScreen):
             lines.append(f"First ranked {job.first_ranked_at:%Y-%m-%d %H:%M} UTC.")
         return "\n".join(lines)
 
+    def _show_versions(self) -> None:
+        if self.built("policy"):  # otherwise written when the section is built
+            self.query_one("#policy-state", Static).update(self._versions_text())
+
     def pane_built(self, pane_id: str) -> None:
         if pane_id == "requirements":
             self._note_new_attributes()
@@ -255,6 +264,8 @@ class JobEditor(EditorScreen):
             self._note_new_attributes()
 
     def _note_new_attributes(self) -> None:
+        if not self.built("requirements"):
+            return
         for block in self.query_one("#list-requirements", RecordList).blocks:
             field = block.fields["attribute"]
             text = field.text.strip()
@@ -264,6 +275,11 @@ class JobEditor(EditorScreen):
 
     def extra_problems(self) -> list[tuple[RuleField, str]]:
         out: list[tuple[RuleField, str]] = []
+        if not self.built("requirements"):  # never shown: the stored requirements stay
+            if self.original is not None and not self.original.requirements:
+                field = self.query_one(".job-profile", RecordBlock).fields["title"]
+                out.append((field, "— the job needs at least one required attribute (Requirements, ctrl+n)"))
+            return out
         blocks = self.query_one("#list-requirements", RecordList).blocks
         if not blocks:
             field = self.query_one(".job-profile", RecordBlock).fields["title"]
@@ -278,10 +294,32 @@ class JobEditor(EditorScreen):
 
     def build_record(self) -> Job:
         profile = self.query_one(".job-profile", RecordBlock).values()
-        reqs = self.query_one("#list-requirements", RecordList).values()
+        base = self.original.policy if self.original is not None else Policy()
+        key = profile["key"] if self.original is None else self.original.key
+        fields = {k: v for k, v in profile.items() if k != "key" and v is not None}
+        # a section never shown keeps what is stored (only a stored job has such sections)
+        if self.built("requirements"):
+            requirements = [
+                Requirement(
+                    attribute=r["attribute"],
+                    importance=r.get("importance") if r.get("importance") is not None else 3,
+                    critical=bool(r.get("critical") or False),
+                )
+                for r in self.query_one("#list-requirements", RecordList).values()
+            ]
+        else:
+            requirements = list(self.original.requirements)
+        if not self.built("policy"):
+            return Job(
+                key=key,
+                requirements=requirements,
+                policy=base,
+                first_ranked_at=self.original.first_ranked_at,
+                row_version=self.original.row_version,
+                **fields,
+            )
         rules_values = self.query_one(".policy-rules", RecordBlock).values()
         weights = self.query_one(".policy-weights", RecordBlock).values()
-        base = self.original.policy if self.original is not None else Policy()
         policy = Policy(
             min_reliability=_or(rules_values.get("min_reliability"), Policy.min_reliability),
             max_norm_age_years=_or(rules_values.get("max_norm_age_years"), Policy.max_norm_age_years),
@@ -293,18 +331,9 @@ class JobEditor(EditorScreen):
             locked_at=base.locked_at,
             created_at=base.created_at,
         )
-        key = profile["key"] if self.original is None else self.original.key
-        fields = {k: v for k, v in profile.items() if k != "key" and v is not None}
         return Job(
             key=key,
-            requirements=[
-                Requirement(
-                    attribute=r["attribute"],
-                    importance=r.get("importance") if r.get("importance") is not None else 3,
-                    critical=bool(r.get("critical") or False),
-                )
-                for r in reqs
-            ],
+            requirements=requirements,
             policy=policy,
             first_ranked_at=self.original.first_ranked_at if self.original is not None else None,
             row_version=self.original.row_version if self.original is not None else None,
@@ -324,7 +353,7 @@ class JobEditor(EditorScreen):
     def after_saved(self, saved: Job) -> None:
         self.record_label = f"job {saved.key}"
         self.query_one(".job-profile", RecordBlock).fields["key"].input.disabled = True
-        self.query_one("#policy-state", Static).update(self._versions_text())
+        self._show_versions()
         self._note_new_attributes()
         self.app.current_job = saved.key
         for screen in self.app.screen_stack:
@@ -375,7 +404,7 @@ class JobEditor(EditorScreen):
     def _locked(self, policy: Policy, versions: list[Policy], job: Job) -> None:
         self.original = job
         self.versions = versions
-        self.query_one("#policy-state", Static).update(self._versions_text())
+        self._show_versions()
         self.banner(f"✓ Locked policy {policy_state(policy)}.", ok=True)
         for screen in self.app.screen_stack:
             refresh = getattr(screen, "record_saved", None)

@@ -68,6 +68,10 @@ class EditorScreen(Screen):
         name = self.key or "new"
         return f"{self.kind_label}: {name}"
 
+    def lazy(self) -> bool:
+        """Whether sections are built when first shown (subclasses may decide per record)."""
+        return self.LAZY
+
     def sections(self) -> list[tuple[str, str, Any]]:
         """[(pane id, pane title, function returning the section's widgets)]."""
         raise NotImplementedError
@@ -103,9 +107,10 @@ class EditorScreen(Screen):
         tabs = TabbedContent(id="sections")
         self._builders = {}
         built: list[str] = []
+        lazy = self.lazy()
         for index, (pane_id, title, builder) in enumerate(self.sections()):
             self._builders[pane_id] = builder
-            if index == 0 or not self.LAZY:
+            if index == 0 or not lazy:
                 self._initial_by_pane[pane_id] = ()  # building
                 built.append(pane_id)
                 tabs.compose_add_child(TabPane(title, self._section(builder()), id=pane_id))
