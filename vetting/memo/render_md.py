@@ -62,7 +62,8 @@ def _table(table: Table) -> list[str]:
 
 #: A character inline() escapes, or white space it would change (all but the plain space).
 _TOUCHED = re.compile(r"[\\`*_\[\]<>|#~\t\n\r\x0b\x0c\x1c-\x1f\x85\xa0\u1680\u2000-\u200a\u2028\u2029\u202f\u205f\u3000]")
-_LIST_AFTER_NUL = re.compile(r"(?:^|\x00)\d+[.)] ")
+_LIST_AFTER_NUL = re.compile(r"\x00\d+[.)] ")
+_LIST_AT_START = re.compile(r"\d+[.)] ")
 
 
 def _as_is(joined: str) -> bool:
@@ -75,7 +76,9 @@ def _as_is(joined: str) -> bool:
         return False
     if joined[:2] in ("- ", "+ ") or "\x00- " in joined or "\x00+ " in joined:
         return False
-    if (". " in joined or ") " in joined) and _LIST_AFTER_NUL.search(joined) is not None:
+    if (". " in joined or ") " in joined) and (
+        _LIST_AT_START.match(joined) is not None or _LIST_AFTER_NUL.search(joined) is not None
+    ):
         return False
     return True
 
