@@ -73,51 +73,56 @@ def _plain(value: Any) -> Any:
     return value
 
 
-def _fields_for_json(value: Any) -> dict:
-    """A dataclass's fields for the JSON encoder (its `default` hook): the encoder writes
-    strings, numbers, lists and dicts itself and calls this for each dataclass it meets, so the
-    records are written without first being copied into plain dicts and lists. Field values
-    are made what _plain makes them (whole-number floats as integers, dates in ISO 8601...)
-    where the encoder would write them otherwise; the text is the same as canonical_json's."""
-    t = type(value)
-    names = _field_names(t)
-    if not names:
-        raise TypeError(f"Object of type {t.__name__} is not JSON serializable")
-    out = {}
-    for n in names:
-        v = getattr(value, n)
-        tv = type(v)
-        if tv is str or v is None or tv is int or tv is bool:
-            pass
-        elif tv is float:
-            if v.is_integer() and abs(v) < 2**53:
-                v = int(v)
-        elif tv is list:
-            if not all(k is str or _is_record_type(k) for k in set(map(type, v))):
-                v = _plain(v)
-        elif not _is_record_type(tv):
-            v = _plain(v)
-        # a dataclass (or a list of them, or of strings) is left to the encoder
-        out[n] = v
-    return out
+_PLAIN_ENCODER = json.JSONEncoder(sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False)
+
+#: Values _plain gives back as they are.
+_SIMPLE = frozenset({str, int, bool, type(None)})
+_CONVERTERS: dict[type, Any] = {}  # dataclass type -> its function making _plain's dict
 
 
-def _is_record_type(t: type) -> bool:
-    return bool(_field_names(t))
+def _converter(t: type):
+    """A function that makes _plain(record) for records of dataclass type `t`, written once per
+    type: each field read by name, and only values that are not text, whole numbers, booleans
+    or None go through _value (floats, lists, dates, nested records)."""
+    conv = _CONVERTERS.get(t)
+    if conv is None:
+        names = _field_names(t)
+        if not names or not all(n.isidentifier() for n in names):
+            conv = _plain
+        else:
+            body = ["def conv(v):"]
+            for i, n in enumerate(names):
+                body.append(f"    x{i} = v.{n}")
+                body.append(f"    if type(x{i}) not in _SIMPLE: x{i} = _value(x{i})")
+            body.append("    return {" + ", ".join(f"{n!r}: x{i}" for i, n in enumerate(names)) + "}")
+            scope = {"_SIMPLE": _SIMPLE, "_value": _value}
+            exec("\n".join(body), scope)  # noqa: S102 - our own text, built from field names
+            conv = scope["conv"]
+        _CONVERTERS[t] = conv
+    return conv
 
 
-_RECORD_ENCODER = json.JSONEncoder(
-    sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False, default=_fields_for_json
-)
+def _value(x: Any) -> Any:
+    """_plain(x) for a value that is not text, a whole number, a boolean or None."""
+    t = type(x)
+    if t is float:
+        # 30 and 30.0 are the same figure whichever database column type held it
+        return int(x) if x.is_integer() and abs(x) < 2**53 else x
+    if t is list:
+        return [e if type(e) in _SIMPLE else _value(e) for e in x]
+    if _field_names(t):
+        return _converter(t)(x)
+    return _plain(x)
 
 
 def _record_json(record: Any, skip: set[str] | frozenset[str] = frozenset()) -> str:
     """canonical_json of a domain record without the fields in `skip` (the same text as
-    canonical_json(instrument_record(...)) and the like)."""
-    fields = _fields_for_json(record)
+    canonical_json(instrument_record(...)) and the like): the record made plain by its
+    type's converter, then written by the standard library's C encoder in one call."""
+    fields = _converter(type(record))(record)
     for name in skip:
         fields.pop(name, None)
-    return _RECORD_ENCODER.encode(fields)
+    return _PLAIN_ENCODER.encode(fields)
 
 
 def canonical_json(value: Any) -> str:
@@ -167,8 +172,8 @@ class Fingerprint:
 
 
 def compute(job: Job, policy: Policy, instruments: list[Instrument]) -> Fingerprint:
-    # each record's canonical JSON (canonical_json(job_record(job)) and so on), written by the
-    # JSON encoder straight from the dataclasses
+    # each record's canonical JSON (canonical_json(job_record(job)) and so on): made plain by
+    # a converter written once per record type, then one call of the C JSON encoder
     texts = {
         f"job:{job.key}": _record_json(job, _JOB_SKIP),
         f"policy:{job.key}": _record_json(policy),
