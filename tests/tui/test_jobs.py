@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from textual.widgets import DataTable, TabbedContent
 
+from vetting.records.domain import Attribute, Requirement
 from vetting.records.store import Store
 from vetting.tui.screens.job import JobEditor, JobsScreen
 from vetting.tui.widgets.confirm import Confirm
@@ -241,3 +242,57 @@ async def test_sections_never_shown_keep_what_is_stored(seeded_url, app_for, set
         ]
         assert after.policy.version == before.policy.version == 1
         assert len(store.policy_versions("claims-clerk")) == 1
+
+
+async def test_a_long_list_shows_a_screenful_first_then_the_rest(seeded_url, app_for, settle):
+    """A job needing 30 attributes: showing its requirements mounts the blocks that fill about
+    a screen at once and the others just after (fewer widgets before the first paint). The
+    pending ones count as stored (nothing unsaved), a record added meanwhile goes after all
+    30, and saving writes every requirement in order."""
+    attrs = [f"skill-{i:02d}" for i in range(30)]
+    with Store.open(seeded_url) as store:
+        for key in attrs:
+            store.save_attribute(Attribute(key=key, name=key))
+        job = store.job("claims-clerk")
+        job.requirements = [Requirement(attribute=a, importance=1 + i % 5, critical=i % 7 == 0)
+                            for i, a in enumerate(attrs)]
+        store.save_job(job)
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        await editor.action_next_section()  # requirements, without waiting for the rest
+        reqs = editor.query_one("#list-requirements", RecordList)
+        assert 0 < len(reqs.blocks) < 30 and len(reqs.blocks) + len(reqs.pending) == 30
+        assert not editor.is_dirty()
+        await settle(pilot)
+        assert [b.fields["attribute"].text for b in reqs.blocks] == attrs
+        assert str(reqs.blocks[-1].query_one(".block-title").render()) == "Requirement 30"
+        assert not editor.is_dirty()
+        await pilot.press("escape")
+        await settle(pilot)
+        assert not isinstance(app.screen, JobEditor)  # nothing unsaved: no question
+
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        await editor.action_next_section()
+        reqs = editor.query_one("#list-requirements", RecordList)
+        assert reqs.pending
+        await editor.action_add_entry()  # while blocks are pending: the new one goes last
+        assert not reqs.pending and len(reqs.blocks) == 31
+        await settle(pilot)
+        assert [b.fields["attribute"].text for b in reqs.blocks[:30]] == attrs
+        await _type_into(pilot, reqs.blocks[-1].fields["attribute"], "skill-new")
+        assert "new attribute" in reqs.blocks[-1].fields["attribute"].note
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+    with Store.open(seeded_url) as store:
+        saved = store.job("claims-clerk")
+        assert [r.attribute for r in saved.requirements] == attrs + ["skill-new"]
+        assert [(r.importance, r.critical) for r in saved.requirements[:30]] == [
+            (1 + i % 5, i % 7 == 0) for i in range(30)
+        ]

@@ -52,7 +52,6 @@ class EditorScreen(Screen):
         self._initial_by_pane: dict[str, tuple] = {}
         self._builders: dict[str, Any] = {}
         self.ready = False
-        self.load_failed = False
         self.saving = False
 
     # -- layout ------------------------------------------------------------------------------
@@ -62,7 +61,8 @@ class EditorScreen(Screen):
         yield Static(self._heading(), id="heading", classes="title-bar", markup=False)
         yield Static("", id="banner", classes="form-banner", markup=False)
         yield Vertical(Static("loading…", classes="hint"), id="body")
-        yield Footer()
+        # the key line comes with the form (_show_record): drawn while the record loads, it was
+        # drawn again, in another state or order, as soon as the form arrived
 
     def _heading(self) -> str:
         name = self.key or "new"
@@ -93,8 +93,7 @@ class EditorScreen(Screen):
         self.app.call_from_thread(self._show_record, record)
 
     def _load_failed(self, exc: Exception) -> None:
-        self.load_failed = True
-        self.refresh_bindings()
+        self.mount(Footer())
         self.banner(f"✗ Could not open {self.record_label}: {exc}", error=True)
         self.query_one("#body").remove_children()
 
@@ -122,10 +121,12 @@ class EditorScreen(Screen):
             await body.mount(tabs)
             self.ready = True
             # the cursor goes to the first field before the form is first painted (focusing
-            # after that paint cost a second layout and paint)
+            # after that paint cost a second layout and paint), then the key line is built
+            # for the form as it will be used
             self._after_show()
+            await self.mount(Footer())
         for pane_id in built:
-            self.call_after_refresh(self._remember, pane_id)
+            self._remember(pane_id)
 
     @staticmethod
     def _section(children: list[Any]) -> VerticalScroll:
@@ -138,14 +139,22 @@ class EditorScreen(Screen):
         self._initial_by_pane[pane_id] = ()  # building
         tabs = self.query_one("#sections", TabbedContent)
         await tabs.get_pane(pane_id).mount(self._section(self._builders[pane_id]()))
-        self.call_after_refresh(self._remember, pane_id)
+        self._remember(pane_id)
 
     def _remember(self, pane_id: str) -> None:
         self._initial_by_pane[pane_id] = self.pane_snapshot(pane_id)
         self.pane_built(pane_id)
 
     def pane_built(self, pane_id: str) -> None:
-        """Hook: a section's widgets were just mounted."""
+        """Hook: a section's widgets were just mounted (called again when a long list in it
+        has mounted its last blocks)."""
+
+    def on_record_list_completed(self, event: RecordList.Completed) -> None:
+        pane = event.record_list
+        while pane is not None and not isinstance(pane, TabPane):
+            pane = pane.parent  # type: ignore[assignment]
+        if pane is not None and pane.id:
+            self.pane_built(pane.id)
 
     def built(self, pane_id: str) -> bool:
         return pane_id in self._initial_by_pane
@@ -225,12 +234,8 @@ class EditorScreen(Screen):
 
     # -- keys --------------------------------------------------------------------------------
 
-    #: the form's own keys (shown while the record loads, so the key line is drawn once; they
-    #: act only once the form is there, and are hidden if the record could not be read)
-    FORM_ACTIONS = frozenset({"save", "add_entry", "remove_entry", "next_section", "previous_section"})
-
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-        if action in self.FORM_ACTIONS and self.load_failed:
+        if action in {"save", "add_entry", "remove_entry", "next_section", "previous_section"} and not self.ready:
             return None
         if action == "add_entry" and self._current_list() is None:
             return None
@@ -319,9 +324,16 @@ class EditorScreen(Screen):
         self.banner(f"✗ Not saved: {section} › {field.spec.title} {message}{more}", error=True)
         self.call_after_refresh(field.input.focus)
 
-    def action_save(self) -> None:
+    async def action_save(self) -> None:
         if self.saving or not self.ready:
             return
+        self.saving = True
+        try:
+            # a long list may still be mounting its last blocks: every record is checked
+            for record_list in self.query(RecordList):
+                await record_list.complete()
+        finally:
+            self.saving = False
         problems = self.problems()
         extra = self.extra_problems()
         if problems:

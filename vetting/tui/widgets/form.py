@@ -374,7 +374,20 @@ class RecordBlock(Vertical):
 
 
 class RecordList(Vertical):
-    """Any number of records of one kind; the editor adds and removes blocks."""
+    """Any number of records of one kind; the editor adds and removes blocks.
+
+    A long list shows first the blocks that fill about one screen; the others are mounted in
+    short steps after that first paint (a job may need dozens of attributes, and
+    building every block before showing any held the screen for most of a second). Until
+    then they are `pending`: `snapshot()` counts them as they were given, and `complete()`
+    mounts them at once (the editor calls it before adding a record or saving)."""
+
+    class Completed(Message):
+        """Every block of the list is mounted (posted when some had been pending)."""
+
+        def __init__(self, record_list: RecordList) -> None:
+            super().__init__()
+            self.record_list = record_list
 
     def __init__(
         self,
@@ -391,10 +404,25 @@ class RecordList(Vertical):
         self.records = records
         self.noun = noun
         self._counter = 0
+        #: records whose blocks are not mounted yet, in order
+        self.pending: list[dict[str, str]] = []
+
+    #: lines of blocks mounted in one step after the first screenful (a short step keeps
+    #: the keys answered while the rest of a long list is mounted), and the pause between steps
+    STEP_LINES = 16
+    STEP_PAUSE = 0.02
+
+    def _blocks_in(self, lines: int, records: list[dict[str, str]]) -> int:
+        """How many of `records` (at least one) take about `lines` lines: a block is its
+        title, one line a field and a blank line."""
+        per_block = len(self.specs) + 2
+        return max(1, min(len(records), -(-lines // per_block)))
 
     def compose(self) -> ComposeResult:
         yield Static(self._empty_text(), classes="list-empty hint", markup=False)
-        for texts in self.records:
+        first = self._blocks_in(max(self.app.size.height, 24), self.records)
+        self.pending = list(self.records[first:])
+        for texts in self.records[:first]:
             yield self._block(texts)
 
     def _empty_text(self) -> str:
@@ -406,15 +434,42 @@ class RecordList(Vertical):
 
     def on_mount(self) -> None:
         self._update_empty()
+        if self.pending:
+            self.call_after_refresh(self._next_step)
+
+    def _next_step(self) -> None:
+        """After a paint: a short pause (for keys waiting), then the next step."""
+        if self.pending and self.is_attached:
+            self.set_timer(self.STEP_PAUSE, self._mount_next)
+
+    async def _mount_next(self) -> None:
+        """Mount the next few pending blocks."""
+        if not self.pending or not self.is_attached:
+            return
+        count = self._blocks_in(self.STEP_LINES, self.pending)
+        chunk, self.pending = self.pending[:count], self.pending[count:]
+        await self.mount_all([self._block(texts) for texts in chunk])
+        if self.pending:
+            self.call_after_refresh(self._next_step)
+        else:
+            self.post_message(self.Completed(self))
+
+    async def complete(self) -> None:
+        """Mount every pending block now."""
+        if self.pending:
+            chunk, self.pending = self.pending, []
+            await self.mount_all([self._block(texts) for texts in chunk])
+            self.post_message(self.Completed(self))
 
     def _update_empty(self) -> None:
-        self.query_one(".list-empty", Static).display = not self.blocks
+        self.query_one(".list-empty", Static).display = not (self.blocks or self.pending)
 
     @property
     def blocks(self) -> list[RecordBlock]:
         return list(self.query_children(RecordBlock))
 
     async def add_record(self, texts: dict[str, str] | None = None) -> RecordBlock:
+        await self.complete()  # a new record goes after every other
         block = self._block(texts or {})
         await self.mount(block)
         self._update_empty()
@@ -422,6 +477,7 @@ class RecordList(Vertical):
         return block
 
     async def remove_block(self, block: RecordBlock) -> None:
+        await self.complete()  # the blocks after it are numbered again
         await block.remove()
         self._update_empty()
         self._renumber()
@@ -442,7 +498,8 @@ class RecordList(Vertical):
         return out
 
     def snapshot(self) -> tuple[tuple[str, ...], ...]:
-        return tuple(b.snapshot() for b in self.blocks)
+        pending = tuple(tuple(texts.get(spec.name, "") for spec in self.specs) for texts in self.pending)
+        return tuple(b.snapshot() for b in self.blocks) + pending
 
 
 def block_of(widget: Widget | None) -> RecordBlock | None:
