@@ -1,8 +1,9 @@
 """The memo's fast paths write exactly what the plain library calls (and plain definitions) write.
 
-Word: `render_docx.render(doc)` takes shortcuts around python-docx (copied table rows, run text
-set without python-docx's character walk, drawing ids and the text width kept instead of
-searched for, the footer defined directly); `render(doc, reference=True)` builds the same
+Word: `render_docx.render(doc)` takes shortcuts around python-docx (table rows and list items
+after the first written as XML text spliced into the serialized part, copied rows where a
+text needs python-docx's own handling, run text set without python-docx's character walk,
+drawing ids and the text width kept instead of searched for, the footer defined directly); `render(doc, reference=True)` builds the same
 document through python-docx's public calls only (`add_paragraph(text, style=)`, `add_table`,
 `add_row` + `cell.text`, `add_picture`, `section.footer.paragraphs`). The reference is the
 library itself, so the two files must hold the same parts with the same bytes.
