@@ -290,7 +290,9 @@ class CompareScreen(Screen):
             table.clear()
 
     def on_mount(self) -> None:
-        self.rank()
+        # the ranking starts once the screen (in its working state) is painted: started here,
+        # its thread competed with the first paint for the interpreter
+        self.call_after_refresh(self.rank)
 
     # -- ranking in a worker -----------------------------------------------------------------
 

@@ -99,7 +99,8 @@ class GapsScreen(Screen):
         table = self.query_one(DataTable)
         table.add_column("Instrument", key="title", width=max(16, min(40, self.app.size.width // 3 - 7)))
         table.add_column("Gaps", key="gaps", width=4)
-        self.load()
+        # read once the screen is painted (a worker started here competes with the first paint)
+        self.call_after_refresh(self.load)
 
     @work(thread=True, exclusive=True, group="gaps-load")
     def load(self) -> None:

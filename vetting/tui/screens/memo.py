@@ -86,6 +86,21 @@ def preview_markdown(markdown: str, rows: int = PREVIEW_ROWS) -> str:
     return "\n".join(out) + "\n"
 
 
+class PreviewScroll(VerticalScroll):
+    """The preview's scrolling pane: Textual's VerticalScroll, restyling only itself when it
+    gains or loses focus.
+
+    Textual restyles a widget and every widget inside it on each focus change; the preview
+    holds several thousand (Textual's Markdown makes a widget of each table cell), so leaving
+    the screen, or opening the export prompt, took over a second at 10,000 instruments. Only
+    the pane's own look depends on its focus (`MemoScreen #preview:focus`); nothing inside it
+    has a style that depends on it.
+    """
+
+    def watch_has_focus(self, _has_focus: bool) -> None:
+        self.app.stylesheet.update_nodes([self], animate=True)
+
+
 class MemoScreen(Screen):
     """Preview the memo; export it as Markdown (k), HTML (h) or Word (w)."""
 
@@ -119,9 +134,9 @@ class MemoScreen(Screen):
         yield Static("Planned use in the memo: the job's own selection ratio (hires ÷ applicants); "
                      "cuts tried on Plan are not carried over.", id="plan-note", classes="status-line")
         with Horizontal(id="working"):
-            yield Static("", id="working-text")
+            yield Static("Reading the records…", id="working-text")  # the preview's first step
             yield ProgressBar(total=3, show_eta=False, id="progress")
-        with VerticalScroll(id="preview"):
+        with PreviewScroll(id="preview"):
             yield Markdown("", id="memo-md")
         yield Static("", id="written", classes="status-line")
         yield CautionLine()
@@ -129,7 +144,8 @@ class MemoScreen(Screen):
 
     def on_mount(self) -> None:
         self._show_state()
-        self.build_preview()
+        # built once the screen is painted (a worker started here competes with the first paint)
+        self.call_after_refresh(self.build_preview)
 
     # -- state -------------------------------------------------------------------------------
 

@@ -159,7 +159,8 @@ class PlanScreen(Screen):
         yield Footer()
 
     def on_mount(self) -> None:
-        self.load()
+        # read once the screen is painted (a worker started here competes with the first paint)
+        self.call_after_refresh(self.load)
 
     # -- loading -----------------------------------------------------------------------------
 
