@@ -155,3 +155,153 @@ async def test_collector_settings_are_the_interpreters_again_after_the_interface
         assert gc.get_threshold()[2] > threshold[2]  # full collections wait for an idle moment
     assert gc.get_threshold() == threshold
     assert gc.get_freeze_count() == 0
+
+
+# -- opening and leaving the results screens (issue 8) -------------------------------------
+# What is checked is the mechanism, never a time: the screens' stylesheets are read once at
+# start, a closed screen is freed, the idle collection's rules, and the memo pane restyling
+# only itself on a focus change (common practice for such optimisations, no published source).
+
+_JOB = "claims-clerk"  # the invented job of conftest.invented_catalogue
+
+
+async def test_results_stylesheets_are_read_at_start_and_not_again_when_a_screen_opens(
+        seeded_url, app_for, settle, monkeypatch):
+    from pathlib import Path
+
+    import vetting.tui.screens as screens_package
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        folder = Path(screens_package.__file__).parent
+        for name in ("compare", "plan", "gaps", "memo"):
+            assert app.stylesheet.has_source(str(folder / f"{name}.tcss")), name
+        reparsed = []
+        original = app.stylesheet.reparse
+        monkeypatch.setattr(app.stylesheet, "reparse", lambda: (reparsed.append(1), original())[1])
+        for name in ("compare", "plan", "gaps", "memo"):
+            screen = await _open(pilot, settle, name, _JOB)
+            assert type(screen).__name__ == f"{name.title()}Screen"
+        assert reparsed == []
+
+
+async def test_a_closed_results_screen_is_freed(seeded_url, app_for, settle):
+    import weakref
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        gone = []
+        for name in ("compare", "gaps", "memo"):
+            screen = await _open(pilot, settle, name, _JOB)
+            assert type(screen).__name__ == f"{name.title()}Screen"
+            gone.append((name, weakref.ref(screen)))
+            del screen
+            app.go("catalogue")
+            await settle(pilot)
+        gc.collect()
+        # Textual's pool threads used to keep their last worker, and with it its screen
+        assert [name for name, ref in gone if ref() is not None] == []
+
+
+async def test_modules_used_by_the_results_screens_are_loaded_and_frozen_after_the_catalogue(
+        seeded_url, app_for, settle):
+    from vetting.tui.app import WARM_MODULES
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        assert app._heap_frozen
+        import sys
+
+        from vetting.tui.screens import memo
+
+        assert all(name in sys.modules for name in WARM_MODULES)
+        # frozen objects are left out of gc.get_objects(): the module's functions are there
+        assert not any(o is memo.preview_markdown for o in gc.get_objects())
+    assert any(o is memo.preview_markdown for o in gc.get_objects())  # handed back on exit
+
+
+def _full_collections_during(fn) -> int:
+    count = []
+
+    def callback(phase, info):
+        if phase == "stop" and info["generation"] == 2:
+            count.append(1)
+
+    gc.callbacks.append(callback)
+    try:
+        fn()
+    finally:
+        gc.callbacks.remove(callback)
+    return len(count)
+
+
+async def test_idle_full_collection_runs_on_the_catalogue_and_freezes_what_survives(seeded_url, app_for, settle):
+    from vetting.tui import app as app_module
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        assert app.at_rest()
+
+        def idle_long_ago():
+            app._last_input = app._last_busy = 0.0
+            if app._rest_since is not None:
+                app._rest_since = 0.0
+            for _ in range(app_module.FULL_COLLECTION_AFTER):
+                gc.collect(1)  # each young collection adds one to the oldest generation's count
+
+        import time
+
+        app._collect_when_idle()  # notes that only the catalogue is shown, since now
+        assert app._rest_since is not None
+        app._last_input = app._last_busy = 0.0
+        for _ in range(app_module.FULL_COLLECTION_AFTER):
+            gc.collect(1)
+        assert _full_collections_during(app._collect_when_idle) == 0  # at rest only just now
+        idle_long_ago()
+        app._last_input = time.monotonic()  # a key just now: no collection
+        assert _full_collections_during(app._collect_when_idle) == 0
+        idle_long_ago()
+        frozen = gc.get_freeze_count()
+        leftover = object.__new__(type("Leftover", (), {}))  # survives: frozen after the collection
+        assert _full_collections_during(app._collect_when_idle) == 1
+        assert gc.get_freeze_count() > frozen
+        assert not any(o is leftover for o in gc.get_objects())
+
+        # with a results screen open, the idle collection waits for much more garbage
+        screen = await _open(pilot, settle, "compare", _JOB)
+        assert type(screen).__name__ == "CompareScreen" and not app.at_rest()
+        idle_long_ago()
+        assert _full_collections_during(app._collect_when_idle) == 0
+        for _ in range(app_module.FULL_COLLECTION_AFTER_OPEN):
+            gc.collect(1)
+        frozen = gc.get_freeze_count()
+        assert _full_collections_during(app._collect_when_idle) == 1
+        assert gc.get_freeze_count() == frozen  # a screen's widgets are never frozen
+    assert gc.get_freeze_count() == 0
+
+
+async def test_memo_preview_pane_restyles_only_itself_on_a_focus_change(seeded_url, app_for, settle, monkeypatch):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        screen = await _open(pilot, settle, "memo", _JOB)
+        assert isinstance(screen, MemoScreen) and screen.markdown, screen.error
+        pane = screen.query_one("#preview")
+        assert app.focused is pane
+        assert len(list(pane.walk_children())) > 20  # the preview's many widgets
+        updated = []
+        original = app.stylesheet.update_nodes
+
+        def update_nodes(nodes, animate=False):
+            nodes = list(nodes)
+            updated.extend(nodes)
+            return original(nodes, animate=animate)
+
+        monkeypatch.setattr(app.stylesheet, "update_nodes", update_nodes)
+        before = pane.styles.background
+        pane.blur()
+        await pilot.pause()
+        assert pane in updated and not any(node in updated for node in pane.walk_children())
+        assert pane.styles.background != before  # the :focus look is gone all the same

@@ -26,6 +26,8 @@ from textual.app import App, SystemCommand
 from textual.binding import Binding
 from textual.command import DiscoveryHit, Hit, Hits, Provider
 from textual.screen import Screen
+from textual.worker import active_worker
+from textual.worker_manager import WorkerManager
 
 from vetting.tui.data import Data
 
@@ -42,12 +44,34 @@ SCREEN_NAMES = ("catalogue", "jobs", *RESULT_SCREENS, "help")
 
 #: the garbage collector's full collections while the interface runs (see
 #: VettingApp._defer_full_collections): never automatic; when the interface has had no key or
-#: click for IDLE_SECONDS, no worker is busy and the younger generation has been collected
+#: click and no busy worker for IDLE_SECONDS and the younger generation has been collected
 #: FULL_COLLECTION_AFTER times since the last full collection (Python's own default: 10)
 FULL_COLLECTION_NEVER = 1_000_000_000
 FULL_COLLECTION_AFTER = 25
+#: ... and while a results screen or an editor is open (see VettingApp._collect_when_idle)
+FULL_COLLECTION_AFTER_OPEN = 100
 IDLE_SECONDS = 5.0
 IDLE_CHECK_SECONDS = 1.0
+
+#: the stylesheets of the screens in this package and the results screens (see CSS_PATH)
+SCREEN_STYLESHEETS = (
+    "screens/catalogue.tcss",
+    "screens/compare.tcss",
+    "screens/plan.tcss",
+    "screens/gaps.tcss",
+    "screens/memo.tcss",
+)
+
+#: modules the results screens and their workers import on first use, imported in a thread
+#: once the catalogue is loaded (see VettingApp.freeze_long_lived)
+WARM_MODULES = (
+    *(module for module, _ in RESULT_SCREENS.values()),
+    "vetting.appraisal.service",
+    "vetting.appraisal",
+    "vetting.memo.build",
+    "vetting.memo.render_md",
+    "vetting.memo.api",
+)
 
 DARK_THEME = "textual-dark"
 LIGHT_THEME = "textual-light"
@@ -101,12 +125,52 @@ class ActionsProvider(Provider):
                 yield Hit(score, matcher.highlight(title), command, text=title, help=help_text)
 
 
+class _ReleasingWorkers(WorkerManager):
+    """Textual's worker manager, whose thread workers let go of themselves when they end.
+
+    A thread worker runs in a thread of the event loop's pool and marks itself as that thread's
+    current worker (a context variable of the thread, which outlives the work). The pool's
+    threads are kept, so each held on to the last worker it ran, and through it the screen that
+    started it, with every widget and row: a closed Compare or Memo screen stayed in memory
+    until its thread ran other work, and every full garbage collection scanned it meanwhile
+    (about 250,000 objects for a closed memo preview). Here the mark is cleared when the work
+    returns; the work itself runs exactly as before.
+    """
+
+    def _new_worker(self, work, node, **kwargs):
+        if kwargs.get("thread") and callable(work) and not _is_async(work):
+            work = _releasing(work)
+        return super()._new_worker(work, node, **kwargs)
+
+
+def _is_async(work) -> bool:
+    import inspect
+
+    return inspect.iscoroutinefunction(work) or inspect.iscoroutinefunction(getattr(work, "func", None)) \
+        or inspect.isawaitable(work)
+
+
+def _releasing(work):
+    def run():
+        try:
+            return work()
+        finally:
+            active_worker.set(None)  # the thread no longer holds the worker (nor its screen)
+
+    run.__name__ = getattr(work, "__name__", "") or getattr(getattr(work, "func", None), "__name__", "")
+    return run
+
+
 class VettingApp(App[int]):
     """The vetting workspace."""
 
     TITLE = "vetting"
     SUB_TITLE = "choose and defend employment tests"
-    CSS_PATH = "app.tcss"
+    #: the screens' own stylesheets are read here, at start, while no widget exists yet: read
+    #: when a screen first opened, each one made Textual parse every stylesheet again and apply
+    #: it to every widget on screen, inside the key's response (the same files and rules either
+    #: way; a screen finds its file already read and adds nothing)
+    CSS_PATH = ["app.tcss", *SCREEN_STYLESHEETS]
     COMMANDS = App.COMMANDS | {ActionsProvider}
 
     BINDINGS = [
@@ -125,6 +189,7 @@ class VettingApp(App[int]):
         self, url: str, *, today: dt.date | None = None, data: Data | None = None, cursor_blink: bool = True
     ) -> None:
         super().__init__()
+        self._workers = _ReleasingWorkers(self)
         self.url = url
         #: False keeps text cursors steady (tests and screenshots)
         self.cursor_blink = cursor_blink
@@ -134,6 +199,7 @@ class VettingApp(App[int]):
         self.current_job: str | None = None
         self.theme = DARK_THEME
         self._heap_frozen = False
+        self._warm_started = False
         self._default_job_started = False
 
     # -- lifecycle ---------------------------------------------------------------------------
@@ -176,8 +242,32 @@ class VettingApp(App[int]):
         and building one screen's widgets allocates enough to start one, so opening the editor
         or another screen stalled for that long. Frozen objects are still freed by reference
         counting when dropped (a reloaded catalogue's old rows hold no cycles); only cyclic
-        garbage among them would stay, so this is done once, not after every load.
+        garbage among them would stay, so this is done once, not after every load (and later
+        only after a full collection with nothing but the catalogue open, see
+        `_collect_when_idle`). The freeze waits for `_warm_up`, so the modules the results
+        screens use are frozen with the rest.
         """
+        if not self._heap_frozen and not self._warm_started:
+            self._warm_started = True
+            self._warm_up()
+
+    @work(thread=True, exclusive=True, group="warm-up")
+    def _warm_up(self) -> None:
+        """Import what the results screens use on first use, then freeze the heap.
+
+        Off the interface thread, while the user reads the catalogue: imported inside the F4-F7
+        key's response, these modules (the screens, Textual's Markdown and its parser, the
+        engine's ranking and the memo writer) cost tens of milliseconds there, and what they
+        leave on the heap was never frozen, so every later full collection scanned it again.
+        """
+        for name in WARM_MODULES:
+            try:
+                importlib.import_module(name)
+            except Exception:  # a missing or broken module reports itself when its key is used
+                pass
+        self.call_from_thread(self._freeze)
+
+    def _freeze(self) -> None:
         if not self._heap_frozen:
             self._heap_frozen = True
             gc.freeze()
@@ -197,16 +287,54 @@ class VettingApp(App[int]):
         self._gc_threshold = gc.get_threshold()
         gc.set_threshold(self._gc_threshold[0], self._gc_threshold[1], FULL_COLLECTION_NEVER)
         self._last_input = time.monotonic()
+        self._last_busy = self._last_input
+        #: since when only the catalogue has been shown (None: something else is open)
+        self._rest_since: float | None = None
         self.set_interval(IDLE_CHECK_SECONDS, self._collect_when_idle, name="idle-collector")
 
+    def at_rest(self) -> bool:
+        """Only the catalogue is shown: no results screen, editor or dialog is open."""
+        from vetting.tui.screens.catalogue import CatalogueScreen
+
+        try:
+            return len(self.screen_stack) <= 2 and isinstance(self.screen, CatalogueScreen)
+        except Exception:  # no screen (starting or closing)
+            return False
+
     def _collect_when_idle(self) -> None:
+        """The full collection, when it holds no key up and frees what closed screens left.
+
+        It runs when the interface has had no key or click, and no worker has been busy, for
+        IDLE_SECONDS, so not just after a screen has done its work (the memo preview used to
+        be followed by a collection of over a million objects while the user read it). Where a
+        results screen or an editor is open, it waits for FULL_COLLECTION_AFTER_OPEN young
+        collections (much garbage): that screen's widgets are alive anyway, and what it leaves
+        is freed on the catalogue. On the catalogue, what survives the collection is the
+        catalogue itself and the libraries: it is frozen too (see `freeze_long_lived`), so the
+        next collection scans only what is new since, mostly the next closed screen's garbage.
+        That waits until the catalogue alone has been shown for IDLE_SECONDS, so a screen that
+        has just closed is garbage by then, not frozen with the rest.
+        """
+        now = time.monotonic()
+        rest = self.at_rest()
+        if not rest:
+            self._rest_since = None
+        elif self._rest_since is None:
+            self._rest_since = now
+        if any(worker.is_running for worker in self.workers):
+            self._last_busy = now
+            return
         if gc.get_count()[2] < FULL_COLLECTION_AFTER or not gc.isenabled():
             return
-        if time.monotonic() - self._last_input < IDLE_SECONDS:
+        if now - max(self._last_input, self._last_busy) < IDLE_SECONDS:
             return
-        if any(worker.is_running for worker in self.workers):
+        if rest and now - self._rest_since < IDLE_SECONDS:
+            return  # a screen just closed may still be on its way out: never freeze it
+        if not rest and gc.get_count()[2] < FULL_COLLECTION_AFTER_OPEN:
             return
         gc.collect()
+        if rest and self._heap_frozen:
+            gc.freeze()
 
     async def on_event(self, event: events.Event) -> None:
         if isinstance(event, (events.Key, events.MouseDown)):
