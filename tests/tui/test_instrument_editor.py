@@ -285,3 +285,26 @@ async def test_enter_moves_to_the_next_field(db_url, app_for, settle):
         await pilot.pause()
         assert _field(editor, ".description", "key").text == "a-key"
         assert _field(editor, ".description", "title").text == "A title"
+
+
+def _bold(content) -> bool:
+    return any("bold" in str(span.style) for span in content.spans)
+
+
+async def test_the_label_shows_a_broken_rule_by_weight_as_well_as_colour(db_url, app_for, settle):
+    """A field's label is drawn by the field itself ('minutes *': required). While the field
+    breaks its rule the label is bold (meaning never rests on colour alone; project rule) and
+    the ✗ message is below it; once fixed both go. The typed text keeps its normal weight."""
+    app = app_for(db_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        editor = await _open_new(pilot, settle)
+        minutes = _field(editor, ".description", "minutes")
+        assert minutes.render().plain == "minutes *"
+        assert not _bold(minutes.render())
+        await _type_into(pilot, minutes, "-5")
+        assert minutes.has_class("-invalid") and _bold(minutes.render())
+        assert minutes.query_one(".field-message").display
+        assert not minutes.input.rich_style.bold
+        await _type_into(pilot, minutes, "30")
+        assert not minutes.has_class("-invalid") and not _bold(minutes.render())
+        assert not minutes.query_one(".field-message").display

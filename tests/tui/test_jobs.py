@@ -244,11 +244,11 @@ async def test_sections_never_shown_keep_what_is_stored(seeded_url, app_for, set
         assert len(store.policy_versions("claims-clerk")) == 1
 
 
-async def test_a_long_list_shows_a_screenful_first_then_the_rest(seeded_url, app_for, settle):
-    """A job needing 30 attributes: showing its requirements mounts the blocks that fill about
-    a screen at once and the others just after (fewer widgets before the first paint). The
-    pending ones count as stored (nothing unsaved), a record added meanwhile goes after all
-    30, and saving writes every requirement in order."""
+async def test_a_long_list_builds_its_blocks_as_they_are_needed(seeded_url, app_for, settle):
+    """A job needing 30 attributes: showing its requirements mounts only the blocks that fill
+    about a screen; the next ones are mounted when the cursor reaches the last blocks or the
+    list is scrolled to its end. The pending ones count as stored (nothing unsaved), a record
+    added meanwhile goes after all 30, and saving writes every requirement in order."""
     attrs = [f"skill-{i:02d}" for i in range(30)]
     with Store.open(seeded_url) as store:
         for key in attrs:
@@ -263,11 +263,24 @@ async def test_a_long_list_shows_a_screenful_first_then_the_rest(seeded_url, app
         app.open_job("claims-clerk")
         await settle(pilot)
         editor = app.screen
-        await editor.action_next_section()  # requirements, without waiting for the rest
-        reqs = editor.query_one("#list-requirements", RecordList)
-        assert 0 < len(reqs.blocks) < 30 and len(reqs.blocks) + len(reqs.pending) == 30
-        assert not editor.is_dirty()
+        await pilot.press("ctrl+o")  # requirements
         await settle(pilot)
+        reqs = editor.query_one("#list-requirements", RecordList)
+        first = len(reqs.blocks)
+        assert 0 < first < 30 and first + len(reqs.pending) == 30
+        assert not editor.is_dirty()
+        # the cursor in the last block built: the next ones are built
+        reqs.blocks[-1].fields["critical"].input.focus()
+        await settle(pilot)
+        assert first < len(reqs.blocks) < 30
+        # scrolled to the end: the rest, step by step
+        scroller = reqs.parent
+        for _ in range(30):
+            if not reqs.pending:
+                break
+            scroller.scroll_end(animate=False)
+            await settle(pilot)
+        assert not reqs.pending
         assert [b.fields["attribute"].text for b in reqs.blocks] == attrs
         assert str(reqs.blocks[-1].query_one(".block-title").render()) == "Requirement 30"
         assert not editor.is_dirty()
@@ -278,12 +291,13 @@ async def test_a_long_list_shows_a_screenful_first_then_the_rest(seeded_url, app
         app.open_job("claims-clerk")
         await settle(pilot)
         editor = app.screen
-        await editor.action_next_section()
+        await pilot.press("ctrl+o")
+        await settle(pilot)
         reqs = editor.query_one("#list-requirements", RecordList)
         assert reqs.pending
-        await editor.action_add_entry()  # while blocks are pending: the new one goes last
-        assert not reqs.pending and len(reqs.blocks) == 31
+        await pilot.press("ctrl+n")  # while blocks are pending: the new one goes last
         await settle(pilot)
+        assert not reqs.pending and len(reqs.blocks) == 31
         assert [b.fields["attribute"].text for b in reqs.blocks[:30]] == attrs
         await _type_into(pilot, reqs.blocks[-1].fields["attribute"], "skill-new")
         assert "new attribute" in reqs.blocks[-1].fields["attribute"].note
@@ -296,3 +310,32 @@ async def test_a_long_list_shows_a_screenful_first_then_the_rest(seeded_url, app
         assert [(r.importance, r.critical) for r in saved.requirements[:30]] == [
             (1 + i % 5, i % 7 == 0) for i in range(30)
         ]
+
+
+async def test_saving_checks_the_records_not_yet_built(seeded_url, app_for, settle):
+    """Saving mounts and checks every record of a long list, also those never scrolled to: a
+    pending record naming an attribute already listed (put there by hand, since the store
+    refuses such a job) is found and refused like a typed one."""
+    attrs = [f"skill-{i:02d}" for i in range(30)]
+    with Store.open(seeded_url) as store:
+        for key in attrs:
+            store.save_attribute(Attribute(key=key, name=key))
+        job = store.job("claims-clerk")
+        job.requirements = [Requirement(attribute=a) for a in attrs]
+        store.save_job(job)
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        reqs = editor.query_one("#list-requirements", RecordList)
+        assert reqs.pending
+        reqs.pending[-1]["attribute"] = "skill-00"  # as if stored twice: refused on saving
+        await pilot.press("f9")
+        await settle(pilot)
+        assert not reqs.pending
+        banner = str(editor.query_one("#banner").render())
+        assert banner.startswith("✗ Not saved") and "'skill-00' is listed twice" in banner

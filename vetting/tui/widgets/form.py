@@ -19,6 +19,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
+from textual import events
 from textual.app import ComposeResult
 from textual.containers import Vertical
 from textual.content import Content
@@ -376,11 +377,12 @@ class RecordBlock(Vertical):
 class RecordList(Vertical):
     """Any number of records of one kind; the editor adds and removes blocks.
 
-    A long list shows first the blocks that fill about one screen; the others are mounted in
-    short steps after that first paint (a job may need dozens of attributes, and
-    building every block before showing any held the screen for most of a second). Until
-    then they are `pending`: `snapshot()` counts them as they were given, and `complete()`
-    mounts them at once (the editor calls it before adding a record or saving)."""
+    A long list mounts only the blocks that fill about one screen; the next few are mounted
+    when they are about to be needed: the list scrolled near its end, or the cursor in one of
+    its last mounted blocks (a job may need dozens of attributes, and building every block
+    before showing any held the screen for most of a second). Until then they are `pending`:
+    `snapshot()` counts them as they were given, and `complete()` mounts them all (the editor
+    calls it before adding or removing a record, and before saving)."""
 
     class Completed(Message):
         """Every block of the list is mounted (posted when some had been pending)."""
@@ -406,11 +408,10 @@ class RecordList(Vertical):
         self._counter = 0
         #: records whose blocks are not mounted yet, in order
         self.pending: list[dict[str, str]] = []
+        self._stepping = False
 
-    #: lines of blocks mounted in one step after the first screenful (a short step keeps
-    #: the keys answered while the rest of a long list is mounted), and the pause between steps
+    #: lines of blocks mounted in one step after the first screenful
     STEP_LINES = 16
-    STEP_PAUSE = 0.02
 
     def _blocks_in(self, lines: int, records: list[dict[str, str]]) -> int:
         """How many of `records` (at least one) take about `lines` lines: a block is its
@@ -420,7 +421,9 @@ class RecordList(Vertical):
 
     def compose(self) -> ComposeResult:
         yield Static(self._empty_text(), classes="list-empty hint", markup=False)
-        first = self._blocks_in(max(self.app.size.height, 24), self.records)
+        # the screen less the lines above and below an editor's section (navigation line,
+        # heading, tabs, key line and the section's note)
+        first = self._blocks_in(max(self.app.size.height - 7, 12), self.records)
         self.pending = list(self.records[first:])
         for texts in self.records[:first]:
             yield self._block(texts)
@@ -434,23 +437,39 @@ class RecordList(Vertical):
 
     def on_mount(self) -> None:
         self._update_empty()
-        if self.pending:
-            self.call_after_refresh(self._next_step)
+        scroller = self._scroller()
+        if self.pending and scroller is not None:
+            self.watch(scroller, "scroll_y", self._scrolled, init=False)
 
-    def _next_step(self) -> None:
-        """After a paint: a short pause (for keys waiting), then the next step."""
-        if self.pending and self.is_attached:
-            self.set_timer(self.STEP_PAUSE, self._mount_next)
+    def _scroller(self) -> Widget | None:
+        node = self.parent
+        while isinstance(node, Widget) and not node.is_scrollable:
+            node = node.parent
+        return node if isinstance(node, Widget) else None
+
+    def _scrolled(self) -> None:
+        scroller = self._scroller()
+        if self.pending and scroller is not None and \
+                scroller.max_scroll_y - scroller.scroll_y <= scroller.size.height:
+            self.call_later(self._mount_next)
+
+    def on_descendant_focus(self, event: events.DescendantFocus) -> None:
+        if self.pending and block_of(event.widget) in self.blocks[-2:]:
+            self.call_later(self._mount_next)
 
     async def _mount_next(self) -> None:
         """Mount the next few pending blocks."""
-        if not self.pending or not self.is_attached:
+        if not self.pending or self._stepping or not self.is_attached:
             return
-        count = self._blocks_in(self.STEP_LINES, self.pending)
-        chunk, self.pending = self.pending[:count], self.pending[count:]
-        await self.mount_all([self._block(texts) for texts in chunk])
+        self._stepping = True
+        try:
+            count = self._blocks_in(self.STEP_LINES, self.pending)
+            chunk, self.pending = self.pending[:count], self.pending[count:]
+            await self.mount_all([self._block(texts) for texts in chunk])
+        finally:
+            self._stepping = False
         if self.pending:
-            self.call_after_refresh(self._next_step)
+            self.call_after_refresh(self._scrolled)  # still at the end (e.g. after End): more
         else:
             self.post_message(self.Completed(self))
 
