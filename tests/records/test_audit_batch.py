@@ -78,3 +78,24 @@ def test_batch_last_and_count(store):
     assert store.audit_events_for(jobs=jobs, instruments=keys, last=10**6) == every
     assert store.audit_events_for(jobs=jobs, instruments=keys, last=0) == []
     assert store.audit_event_count_for() == 0
+
+
+def test_a_job_and_an_instrument_with_the_same_key_keep_their_own_events(store):
+    """The lookups select on the key and check the entity afterwards: a job that shares its
+    key with an instrument must not lend its events to the instrument, nor the other way."""
+    cat = S.catalogue()
+    store.import_catalogue(cat, source="sample.yaml")
+    job = store.job(cat.jobs[0].key)
+    twin = dataclasses.replace(job, key=cat.instruments[0].key, row_version=None, first_ranked_at=None)
+    store.save_job(twin)
+    key = twin.key
+    inst_events = store.audit_events_for(instruments=[key])
+    job_events = store.audit_events_for(jobs=[key])
+    assert inst_events and {e.entity for e in inst_events} == {"instrument"}
+    assert job_events and {e.entity for e in job_events} <= {"job", "policy", "decision"}
+    assert inst_events == store.audit_events(instrument=key)
+    assert store.audit_event_count_for(instruments=[key]) == len(inst_events)
+    assert store.audit_event_count_for(jobs=[key]) == len(job_events)
+    both = store.audit_events_for(jobs=[key], instruments=[key], last=len(inst_events) + len(job_events))
+    assert both == _union(store, [key], [key])
+    assert store.audit_events_for(jobs=[key], instruments=[key], last=1) == both[-1:]

@@ -246,6 +246,10 @@ def _catalogue_copy(obj: Any) -> Any:
 # ---------------------------------------------------------------------------
 
 
+#: keys per audit lookup: well under the bound-parameter limits of SQLite and PostgreSQL
+_AUDIT_STEP = 500
+
+
 class Store:
     """One database. Open with Store.open(url); close with close() or a `with` block."""
 
@@ -666,17 +670,22 @@ class Store:
         """The audit events of many records at once, oldest first: for each key in `jobs` the
         job's own, policy and decision events, for each key in `instruments` the instrument's.
         With `last`, only the newest `last` of them. One query per 500 keys (not one per
-        record), so a memo over a large catalogue stays fast."""
+        record), so a memo over a large catalogue stays fast; with `last`, only the events kept
+        are read whole (their before/after values decoded)."""
+        A = m.AuditEventRow
         rows = []
         with self._read() as s:
-            for where in self._audit_filters(jobs, instruments):
-                q = select(m.AuditEventRow).where(*where)
-                if last is not None:
-                    q = q.order_by(m.AuditEventRow.id.desc()).limit(max(last, 0))
-                rows += s.scalars(q).all()
-            rows.sort(key=lambda r: r.id)
             if last is not None:
-                rows = rows[len(rows) - max(last, 0) :]
+                ids: list[int] = []
+                for entities, keys in self._audit_groups(jobs, instruments):
+                    ids += [i for i, e in s.execute(select(A.id, A.entity).where(A.key.in_(keys))) if e in entities]
+                ids = sorted(ids)[len(ids) - last :] if last > 0 else []
+                for i in range(0, len(ids), _AUDIT_STEP):
+                    rows += s.scalars(select(A).where(A.id.in_(ids[i : i + _AUDIT_STEP]))).all()
+            else:
+                for entities, keys in self._audit_groups(jobs, instruments):
+                    rows += [r for r in s.scalars(select(A).where(A.key.in_(keys))) if r.entity in entities]
+            rows.sort(key=lambda r: r.id)
             return [
                 AuditEvent(
                     id=r.id, at=_utc(r.at), who=r.who, action=r.action, entity=r.entity, key=r.key,
@@ -687,19 +696,25 @@ class Store:
 
     def audit_event_count_for(self, *, jobs=(), instruments=()) -> int:
         """How many events audit_events_for(jobs=..., instruments=...) would return."""
+        A = m.AuditEventRow
         with self._read() as s:
             return sum(
-                s.scalar(select(func.count()).select_from(m.AuditEventRow).where(*where))
-                for where in self._audit_filters(jobs, instruments)
+                n
+                for entities, keys in self._audit_groups(jobs, instruments)
+                for e, n in s.execute(select(A.entity, func.count()).where(A.key.in_(keys)).group_by(A.entity))
+                if e in entities
             )
 
     @staticmethod
-    def _audit_filters(jobs, instruments):
-        step = 500  # well under the bound-parameter limits of SQLite and PostgreSQL
+    def _audit_groups(jobs, instruments):
+        """(entities, up to _AUDIT_STEP keys) to look up. The queries select on the key alone
+        and the entity is checked here: on the key's index the database reads only the rows of
+        these keys, where a condition on the entity as well can lead a planner without table
+        statistics (a fresh SQLite file) to read every row of an entity once per group."""
         jobs, instruments = sorted(set(jobs)), sorted(set(instruments))
-        for entities, keys in ((("job", "policy", "decision"), jobs), (("instrument",), instruments)):
-            for i in range(0, len(keys), step):
-                yield (m.AuditEventRow.entity.in_(entities), m.AuditEventRow.key.in_(keys[i : i + step]))
+        for entities, keys in ((frozenset({"job", "policy", "decision"}), jobs), (frozenset({"instrument"}), instruments)):
+            for i in range(0, len(keys), _AUDIT_STEP):
+                yield entities, keys[i : i + _AUDIT_STEP]
 
     # -- catalogues ------------------------------------------------------------
 
