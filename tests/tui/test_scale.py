@@ -270,6 +270,21 @@ async def test_idle_full_collection_runs_on_the_catalogue_and_freezes_what_survi
         assert gc.get_freeze_count() > frozen
         assert not any(o is leftover for o in gc.get_objects())
 
+        # a results screen opened and closed: collected on the catalogue however little was
+        # allocated (closing a screen makes garbage without allocating)
+        app._last_input = time.monotonic()  # as if keys were pressed: the timer does nothing
+        screen = await _open(pilot, settle, "gaps", _JOB)
+        assert type(screen).__name__ == "GapsScreen"
+        del screen
+        app.go("catalogue")
+        await settle(pilot)
+        assert app.at_rest() and app._screen_closed
+        app._last_input = app._last_busy = app._rest_since = 0.0
+        gc.collect()  # the young count starts afresh
+        assert gc.get_count()[2] < app_module.FULL_COLLECTION_AFTER
+        assert _full_collections_during(app._collect_when_idle) == 1
+        assert _full_collections_during(app._collect_when_idle) == 0  # once
+
         # with a results screen open, the idle collection waits for much more garbage
         screen = await _open(pilot, settle, "compare", _JOB)
         assert type(screen).__name__ == "CompareScreen" and not app.at_rest()

@@ -49,7 +49,7 @@ SCREEN_NAMES = ("catalogue", "jobs", *RESULT_SCREENS, "help")
 FULL_COLLECTION_NEVER = 1_000_000_000
 FULL_COLLECTION_AFTER = 25
 #: ... and while a results screen or an editor is open (see VettingApp._collect_when_idle)
-FULL_COLLECTION_AFTER_OPEN = 100
+FULL_COLLECTION_AFTER_OPEN = 200
 IDLE_SECONDS = 5.0
 IDLE_CHECK_SECONDS = 1.0
 
@@ -200,6 +200,8 @@ class VettingApp(App[int]):
         self.theme = DARK_THEME
         self._heap_frozen = False
         self._warm_started = False
+        #: a screen was opened since the last full collection on the catalogue
+        self._screen_closed = False
         self._default_job_started = False
 
     # -- lifecycle ---------------------------------------------------------------------------
@@ -271,6 +273,9 @@ class VettingApp(App[int]):
         if not self._heap_frozen:
             self._heap_frozen = True
             gc.freeze()
+            # with everything frozen this scans next to nothing, and it starts the count of
+            # young collections (see _collect_when_idle) afresh: what came before is frozen
+            gc.collect()
 
     def _defer_full_collections(self) -> None:
         """Full garbage collections wait until the interface is idle (restored on exit).
@@ -309,7 +314,9 @@ class VettingApp(App[int]):
         be followed by a collection of over a million objects while the user read it). Where a
         results screen or an editor is open, it waits for FULL_COLLECTION_AFTER_OPEN young
         collections (much garbage): that screen's widgets are alive anyway, and what it leaves
-        is freed on the catalogue. On the catalogue, what survives the collection is the
+        is freed on the catalogue, where a collection follows each closed screen (closing one
+        makes garbage without allocating, so the young count does not show it). On the
+        catalogue, what survives the collection is the
         catalogue itself and the libraries: it is frozen too (see `freeze_long_lived`), so the
         next collection scans only what is new since, mostly the next closed screen's garbage.
         That waits until the catalogue alone has been shown for IDLE_SECONDS, so a screen that
@@ -319,22 +326,27 @@ class VettingApp(App[int]):
         rest = self.at_rest()
         if not rest:
             self._rest_since = None
+            self._screen_closed = True  # garbage once it closes, which allocates nothing
         elif self._rest_since is None:
             self._rest_since = now
         if any(worker.is_running for worker in self.workers):
             self._last_busy = now
             return
-        if gc.get_count()[2] < FULL_COLLECTION_AFTER or not gc.isenabled():
+        if not gc.isenabled() or now - max(self._last_input, self._last_busy) < IDLE_SECONDS:
             return
-        if now - max(self._last_input, self._last_busy) < IDLE_SECONDS:
-            return
-        if rest and now - self._rest_since < IDLE_SECONDS:
-            return  # a screen just closed may still be on its way out: never freeze it
-        if not rest and gc.get_count()[2] < FULL_COLLECTION_AFTER_OPEN:
+        young = gc.get_count()[2]
+        if rest:
+            if young < FULL_COLLECTION_AFTER and not self._screen_closed:
+                return
+            if now - self._rest_since < IDLE_SECONDS:
+                return  # a screen just closed may still be on its way out: never freeze it
+        elif young < FULL_COLLECTION_AFTER_OPEN:
             return
         gc.collect()
-        if rest and self._heap_frozen:
-            gc.freeze()
+        if rest:
+            self._screen_closed = False
+            if self._heap_frozen:
+                gc.freeze()
 
     async def on_event(self, event: events.Event) -> None:
         if isinstance(event, (events.Key, events.MouseDown)):
@@ -403,6 +415,7 @@ class VettingApp(App[int]):
         """Show the screen called `name` (asks first if an editor holds unsaved changes)."""
         if name not in SCREEN_NAMES:
             raise ValueError(f"unknown screen {name!r}")
+        self._screen_closed = True  # leaves garbage behind when it closes (see _collect_when_idle)
         if isinstance(self.screen, _modal_types()):
             return
         if getattr(self.screen, "screen_name", None) == name and not kwargs:
@@ -451,11 +464,13 @@ class VettingApp(App[int]):
         """Open the instrument editor on `key` (None: a new instrument)."""
         from vetting.tui.screens.instrument import InstrumentEditor
 
+        self._screen_closed = True
         self.push_screen(InstrumentEditor(key))
 
     def open_job(self, key: str | None) -> None:
         from vetting.tui.screens.job import JobEditor
 
+        self._screen_closed = True
         self.push_screen(JobEditor(key))
 
     # -- looks -------------------------------------------------------------------------------
