@@ -274,3 +274,76 @@ async def test_first_page_shows_before_the_whole_catalogue_is_read(seeded_url, a
         await settle(pilot)
         assert screen.loaded and len(screen.rows) == 3
         assert "3 instruments" in str(screen.query_one("#count").render())
+
+
+# -- the sort keys worked out once per row give the one-pass sort's order ----------------------
+
+
+def _one_pass_sort(rows, column, reverse):
+    """The catalogue's sort as it was first written (one sort on (figure, lowercase title), the
+    records without the figure last in their own order), kept here to pin the faster one."""
+    from vetting.tui.screens.catalogue import _BY_ID
+
+    col = _BY_ID[column]
+    present = [r for r in rows if col.sort_value(r) is not None]
+    missing = [r for r in rows if col.sort_value(r) is None]
+    descending = col.high_first != reverse
+    present.sort(key=lambda r: (col.sort_value(r), r.title.lower()), reverse=descending)
+    return present + missing
+
+
+def test_sort_keys_give_the_one_pass_order_on_a_generated_catalogue():
+    import dataclasses
+
+    from vetting.records.synthetic import generate_catalogue
+    from vetting.tui.data import CatalogueRow
+    from vetting.tui.screens.catalogue import COLUMN_IDS, SortKeys
+
+    catalogue = generate_catalogue(240, seed=7)
+    rows = []
+    for inst in catalogue.instruments:
+        summary = summarise(inst, TODAY)
+        rows.append(CatalogueRow(inst.key, inst.title, inst.publisher or "", [], summary))
+    # ties: the same title in another case, the same figures, and figures taken away
+    for i, row in enumerate(rows[:60]):
+        twin = dataclasses.replace(row.summary, best_reliability=None if i % 2 else row.summary.best_reliability,
+                                   cost_per_applicant=None, minutes=10)
+        rows.append(CatalogueRow(f"{row.key}-twin", row.title.upper() if i % 3 else row.title, "", [], twin))
+    keys = SortKeys(rows)
+    for column in COLUMN_IDS:
+        for reverse in (False, True):
+            expected = [r.key for r in _one_pass_sort(rows, column, reverse)]
+            assert [r.key for r in keys.ordered(column, reverse)] == expected, (column, reverse)
+            assert [r.key for r in sort_rows(rows, column, reverse)] == expected
+    prepared = SortKeys(rows).prepare()  # keys worked out ahead (the loading worker) order the same
+    assert [r.key for r in prepared.ordered("validity", True)] == [r.key for r in keys.ordered("validity", True)]
+
+
+def test_sort_keys_match_the_one_pass_order_with_many_ties_and_gaps():
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    from vetting.appraisal.types import InstrumentSummary
+    from vetting.tui.data import CatalogueRow
+    from vetting.tui.screens.catalogue import COLUMN_IDS, SortKeys
+
+    figure = st.one_of(st.none(), st.integers(0, 3), st.sampled_from([0.5, 1.0, 2.0, 2.5]))
+    entry = st.tuples(st.sampled_from(["Alpha", "alpha", "Beta", "b", "ALPHA", "beta "]), figure, figure,
+                      st.sampled_from([None, "open", "trained", "licensed", "other"]))
+
+    @settings(max_examples=60, deadline=None)
+    @given(st.lists(entry, max_size=40), st.sampled_from(COLUMN_IDS), st.booleans())
+    def check(entries, column, reverse):
+        rows = []
+        for i, (title, a, b, qual) in enumerate(entries):
+            summary = InstrumentSummary(
+                key=f"k{i}", title=title, publisher=None, attributes=[], minutes=a, reading_grade=b,
+                cost_per_applicant=a, currency=None, qualification=qual, best_reliability=b,
+                best_reliability_type=None, conservative_validity=a, validity_k=0, validity_n=0,
+                norm_age_years=b, norm_groups=0, has_subgroup_data=False, sample_copy_checked=False,
+            )
+            rows.append(CatalogueRow(f"k{i}", title, "", [], summary))
+        expected = [r.key for r in _one_pass_sort(rows, column, reverse)]
+        assert [r.key for r in SortKeys(rows).ordered(column, reverse)] == expected
+
+    check()

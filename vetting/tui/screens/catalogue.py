@@ -95,12 +95,68 @@ TITLE_MIN, TITLE_MAX = 16, 60
 
 def sort_rows(rows: list[CatalogueRow], column: str, reverse: bool) -> list[CatalogueRow]:
     """Rows ordered by `column`; records without that figure always go last."""
-    col = _BY_ID[column]
-    present = [r for r in rows if col.sort_value(r) is not None]
-    missing = [r for r in rows if col.sort_value(r) is None]
-    descending = col.high_first != reverse
-    present.sort(key=lambda r: (col.sort_value(r), r.title.lower()), reverse=descending)
-    return present + missing
+    return SortKeys(rows).ordered(column, reverse)
+
+
+class SortKeys:
+    """The sort keys of one list of rows, each worked out once (a column's on its first sort).
+
+    The order is `column`'s figure, then the title ignoring case, then the rows' own order
+    (stable sorts); the records without the figure follow in their own order. It is sorted in
+    two stable passes, by title (done once for every column) and then by the figure alone,
+    which gives the same order as one sort on (figure, title), ties included, in either
+    direction (a stable sort keeps equal keys in their order even when reversed)."""
+
+    def __init__(self, rows: list[CatalogueRow]) -> None:
+        self.rows = rows
+        self._titles: list[str] | None = None
+        self._by_title: dict[bool, list[int]] = {}
+        self._values: dict[str, list[Any]] = {}
+        self._orders: dict[tuple[str, bool], list[CatalogueRow]] = {}
+
+    def titles(self) -> list[str]:
+        if self._titles is None:
+            self._titles = [r.title.lower() for r in self.rows]
+        return self._titles
+
+    def by_title(self, descending: bool) -> list[int]:
+        """Row indexes in title order (ties in the rows' own order)."""
+        found = self._by_title.get(descending)
+        if found is None:
+            titles = self.titles()
+            found = self._by_title[descending] = sorted(range(len(titles)), key=titles.__getitem__,
+                                                        reverse=descending)
+        return found
+
+    def values(self, column: str) -> list[Any]:
+        found = self._values.get(column)
+        if found is None:
+            found = self._values[column] = list(map(_BY_ID[column].sort_value, self.rows))
+        return found
+
+    def prepare(self) -> "SortKeys":
+        """Work out every column's keys now (done in the loading worker, off the interface)."""
+        self.by_title(False)
+        self.by_title(True)
+        for column in COLUMN_IDS[1:]:
+            self.values(column)
+        return self
+
+    def ordered(self, column: str, reverse: bool) -> list[CatalogueRow]:
+        found = self._orders.get((column, reverse))
+        if found is None:
+            rows = self.rows
+            descending = _BY_ID[column].high_first != reverse
+            if column == "title":  # the figure is the title itself: (t, t) orders as t does
+                order = self.by_title(descending)
+                missing: list[int] = []
+            else:
+                values = self.values(column)
+                order = [i for i in self.by_title(descending) if values[i] is not None]
+                order.sort(key=values.__getitem__, reverse=descending)
+                missing = [i for i, v in enumerate(values) if v is None]
+            found = self._orders[(column, reverse)] = [rows[i] for i in order] + [rows[i] for i in missing]
+        return found
 
 
 def filter_rows(rows: list[CatalogueRow], text: str) -> list[CatalogueRow]:
@@ -161,6 +217,10 @@ class CatalogueScreen(Screen):
         self.first_page_shown = False
         self._filter_timer = None
         self._ordered: list[CatalogueRow] = []
+        #: the sort keys and orders of `rows` (replaced whenever `rows` is)
+        self._sort_keys: SortKeys | None = None
+        #: each shown row's table cells, by key (remade when the row is read again)
+        self._cells: dict[str, tuple[CatalogueRow, list[Text]]] = {}
         #: the last filter text and its rows (in the current order), to narrow from
         self._last_filter: tuple[str, list[CatalogueRow]] | None = None
         self._keys: list[str] = []
@@ -228,7 +288,8 @@ class CatalogueScreen(Screen):
             self.app.call_from_thread(self._load_failed, exc)
             return
         if not worker.is_cancelled:
-            self.app.call_from_thread(self._loaded, rows)
+            keys = SortKeys(rows).prepare()  # here, not on the interface thread
+            self.app.call_from_thread(self._loaded, rows, keys)
 
     def _first_page(self, rows: list[CatalogueRow], total: int, painted: threading.Event | None = None) -> None:
         if painted is not None:
@@ -261,8 +322,10 @@ class CatalogueScreen(Screen):
         self.query_one("#status", Static).update(f"✗ Could not read the catalogue: {exc}")
         self.notify(str(exc), title="Catalogue not loaded", severity="error", timeout=10)
 
-    def _loaded(self, rows: list[CatalogueRow]) -> None:
+    def _loaded(self, rows: list[CatalogueRow], keys: SortKeys | None = None) -> None:
         self.rows = rows
+        if keys is not None and keys.rows is rows:
+            self._sort_keys = keys
         self._stale = True
         self.loaded = True
         self._resort()
@@ -281,7 +344,9 @@ class CatalogueScreen(Screen):
         self._filter_timer = self.set_timer(self.DEBOUNCE_SECONDS, self._apply_filter)
 
     def _resort(self) -> None:
-        self._ordered = sort_rows(self.rows, self.sort_column, self.sort_reverse)
+        if self._sort_keys is None or self._sort_keys.rows is not self.rows:
+            self._sort_keys = SortKeys(self.rows)  # new rows: their keys are worked out afresh
+        self._ordered = self._sort_keys.ordered(self.sort_column, self.sort_reverse)
         self._last_filter = None
 
     def _apply_filter(self) -> None:
@@ -305,13 +370,23 @@ class CatalogueScreen(Screen):
             return
         self._stale = False
         table.clear()
-        # plain Text cells: no markup parsing of titles typed by people
-        table.add_rows([Text(c.cell(r), no_wrap=True, justify="right" if c.right else "left") for c in COLUMNS]
-                       for r in visible)
+        table.add_rows(self._row_cells(r) for r in visible)
         self._keys = [r.key for r in visible]
         if keep in self._keys:
             table.move_cursor(row=self._keys.index(keep), animate=False)
         self._update_counts()
+
+    def _row_cells(self, row: CatalogueRow) -> list[Text]:
+        """A row's cells, made once per row read (a sort or filter shows the same rows again)."""
+        found = self._cells.get(row.key)
+        if found is not None and found[0] is row:
+            return found[1]
+        # plain Text cells: no markup parsing of titles typed by people
+        if len(self._cells) >= 20 * self.MAX_TABLE_ROWS:
+            self._cells = {}  # a bounded memory of the rows lately shown
+        cells = [Text(c.cell(row), no_wrap=True, justify="right" if c.right else "left") for c in COLUMNS]
+        self._cells[row.key] = (row, cells)
+        return cells
 
     def _update_counts(self) -> None:
         total = len(self.rows)
