@@ -320,3 +320,115 @@ async def test_memo_preview_pane_restyles_only_itself_on_a_focus_change(seeded_u
         await pilot.pause()
         assert pane in updated and not any(node in updated for node in pane.walk_children())
         assert pane.styles.background != before  # the :focus look is gone all the same
+
+
+# -- the memo preview: one widget per table and per list ----------------------------------------
+#
+# Textual's own Markdown widget makes a widget of every table cell and three of every list item;
+# the preview folds each table and each list of one-paragraph items into one widget. What a
+# reader sees must not change: the cells and items are checked against what Textual's own
+# Markdown blocks hold for the same text (the reference), and the widget count is pinned.
+
+
+def _textual_tables_and_lists(markdown: str):
+    """Cell texts of each table and item texts of each list as Textual's own Markdown widget
+    parses them (its blocks, built without mounting)."""
+    from markdown_it import MarkdownIt
+    from textual.widgets._markdown import MarkdownList, MarkdownListItem, MarkdownTable
+
+    reference = Markdown()
+    tables, lists = [], []
+
+    def walk(blocks):
+        for block in blocks:
+            if isinstance(block, MarkdownTable):
+                headers, rows = block._get_headers_and_rows()
+                tables.append(([h.plain for h in headers], [[c.plain for c in row] for row in rows]))
+            elif isinstance(block, MarkdownList):
+                items = [b for b in block._blocks if isinstance(b, MarkdownListItem)]
+                lists.append([" ".join(p._content.plain for p in item._blocks) for item in items])
+                for item in items:
+                    walk(item._blocks)
+            else:
+                walk(block._blocks)
+
+    walk(list(reference._parse_markdown(MarkdownIt("gfm-like").parse(markdown))))
+    return tables, lists
+
+
+def _preview_tables_and_lists(markdown: str):
+    from vetting.tui.screens.memo import LIST_TOKEN, TABLE_TOKEN, preview_parser
+
+    tables, lists = [], []
+    for token in preview_parser().parse(markdown):
+        if token.type == TABLE_TOKEN:
+            tables.append(([h.plain for h in token.meta["headers"]],
+                           [[c.plain for c in row] for row in token.meta["rows"]]))
+        elif token.type == LIST_TOKEN:
+            lists.append([text.plain for _info, text in token.meta["items"]])
+    return tables, lists
+
+
+def test_folded_tables_and_lists_hold_what_textuals_markdown_holds():
+    text = "\n".join([
+        "# Memo", "", "*A subtitle*", "",
+        "| Instrument | r | Note |", "|---|---:|---|",
+        "| Alpha \\| one | 0.91 | **bold** and *slanted* |",
+        "| Beta\\_two | 0.80 |   |",
+        "| `code` here | 1,234 | a \\*star\\* |", "",
+        "- **Label:** value", "- plain item with \\# hash", "- third", "",
+        "1. first", "2. second", "",
+        "> **A quote**", ">", "> with a line", "",
+        "| one |", "|---|", "",  # a table without rows
+    ])
+    expected_tables, expected_lists = _textual_tables_and_lists(text)
+    tables, lists = _preview_tables_and_lists(text)
+    assert len(expected_tables) == 2 and len(expected_lists) == 2
+    assert tables == expected_tables
+    assert lists == expected_lists
+
+
+def test_a_list_with_more_than_a_paragraph_per_item_is_left_to_textual():
+    from vetting.tui.screens.memo import LIST_TOKEN, preview_parser
+
+    text = "- one\n- two\n  - nested a\n  - nested b\n"
+    types = [t.type for t in preview_parser().parse(text)]
+    assert types[0] == "bullet_list_open"  # the outer list, as Textual's parser gives it
+    assert types.count(LIST_TOKEN) == 1  # the nested list is simple and folded
+
+
+async def test_memo_preview_of_1000_instruments_is_one_widget_per_table_and_list(tmp_path, app_for, settle):
+    from textual.widgets._markdown import MarkdownTableCellContents
+
+    from vetting.tui.screens.memo import PREVIEW_ROWS, PreviewList, PreviewTable
+
+    url = _generated_url(tmp_path, 1000)
+    with Store.open(url) as store:
+        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+    app = app_for(url)
+    async with app.run_test(size=(160, 48)) as pilot:
+        screen = await _open(pilot, settle, "memo", job.key)
+        assert isinstance(screen, MemoScreen) and screen.markdown, screen.error
+        preview = screen.query_one("#memo-md", Markdown)
+        widgets = list(preview.query("*"))
+        # Textual's own Markdown made over 2,000 here (a widget per cell; value measured on
+        # this catalogue before the change, common practice, no published source)
+        assert len(widgets) < 200
+        assert not preview.query(MarkdownTableCellContents)
+        tables = list(preview.query(PreviewTable))
+        expected_tables, expected_lists = _textual_tables_and_lists(screen.markdown)
+        assert len(tables) == len(expected_tables) and len(list(preview.query(PreviewList))) == len(expected_lists)
+        # each table shows its header row and its rows, the long ones cut at PREVIEW_ROWS
+        from rich.console import Console
+
+        longest = max(expected_tables, key=lambda t: len(t[1]))
+        assert len(longest[1]) == PREVIEW_ROWS
+        for widget, (headers, rows) in zip(tables, expected_tables):
+            assert [[c.plain for c in row] for row in widget.rows] == rows
+            console = Console(width=400, record=True, file=open("/dev/null", "w"))
+            console.print(widget.table)
+            shown = console.export_text()
+            assert all(h in shown for h in headers)
+            assert rows[0][0] in shown and rows[-1][0] in shown
+        cut_notes = [p for p in preview.query("MarkdownParagraph") if "more rows: the exported memo" in str(p.render())]
+        assert cut_notes

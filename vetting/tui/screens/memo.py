@@ -1,7 +1,8 @@
 """Memo: a preview of the decision memo and its export to Markdown, HTML and Word.
 
 The preview is the memo writer's own Markdown (`vetting.memo`: gather, layout, render), shown
-in Textual's Markdown widget; exporting calls `vetting.memo.api.make_memo` in a thread worker
+in Textual's Markdown widget with each table and each list drawn by ONE widget (see
+`PreviewMarkdown`); exporting calls `vetting.memo.api.make_memo` in a thread worker
 (written to a temporary file, then renamed into place) and shows where the file went. The
 choice made on the Compare screen is used; without one, the memo takes the top-ranked
 eligible instrument, as the command line does.
@@ -12,6 +13,10 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+from markdown_it import MarkdownIt
+from markdown_it.token import Token
+from rich import box
+from rich.table import Table
 from rich.text import Text
 from textual import work
 from textual.app import ComposeResult
@@ -19,6 +24,7 @@ from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
 from textual.widgets import Markdown, ProgressBar, Static
+from textual.widgets.markdown import MarkdownBlock
 from textual.worker import get_current_worker
 
 from vetting.tui.widgets.footer import Footer
@@ -86,6 +92,194 @@ def preview_markdown(markdown: str, rows: int = PREVIEW_ROWS) -> str:
     return "\n".join(out) + "\n"
 
 
+# -- the preview's widgets: one per table and one per list -------------------------------------
+#
+# Textual's Markdown makes a widget of every table cell (and a Horizontal, a bullet and a
+# Vertical for every list item): at 10,000 instruments the preview held about 2,300 widgets,
+# mounting them held the keys for about half a second, and freeing them after the screen closed
+# cost the collector about 400,000 objects. Here a step added to the Markdown parser folds each
+# table, and each list whose items are single paragraphs, into one token of its own; the Markdown
+# widget hands that token to `unhandled_token` (its documented hook for extra tokens), which
+# makes one block drawing a Rich table. Headings, paragraphs, quotes and anything else stay
+# Textual's own blocks.
+
+TABLE_TOKEN = "vetting_preview_table"
+LIST_TOKEN = "vetting_preview_list"
+
+_INLINE_STYLES = {"strong_open": "bold", "em_open": "italic", "s_open": "strike"}
+
+
+def inline_text(token: Token | None) -> Text:
+    """The text of an inline Markdown token, with its bold, italic and struck-out spans."""
+    text = Text()
+    if token is None or not token.children:
+        return text
+    styles: list[str] = []
+    for child in token.children:
+        kind = child.type
+        if kind == "text":
+            text.append(" ".join(child.content.split()) if "\n" in child.content else child.content,
+                        " ".join(styles) or None)
+        elif kind == "code_inline":
+            text.append(child.content, " ".join([*styles, "bold"]))
+        elif kind == "softbreak":
+            text.append(" ")
+        elif kind == "hardbreak":
+            text.append("\n")
+        elif kind in _INLINE_STYLES:
+            styles.append(_INLINE_STYLES[kind])
+        elif kind.endswith("_close") and kind != "link_close" and styles:
+            styles.pop()
+    return text
+
+
+def _closing(tokens: list[Token], start: int) -> int:
+    """The index of the token closing the one opened at `start`."""
+    opened, closing = tokens[start].type, tokens[start].type.replace("_open", "_close")
+    depth = 0
+    for j in range(start, len(tokens)):
+        if tokens[j].type == opened:
+            depth += 1
+        elif tokens[j].type == closing:
+            depth -= 1
+            if depth == 0:
+                return j
+    return len(tokens) - 1
+
+
+def _fold_table(tokens: list[Token], start: int, end: int) -> Token:
+    headers: list[Text] = []
+    right: list[bool] = []
+    rows: list[list[Text]] = []
+    cell_open: Token | None = None
+    for token in tokens[start:end]:
+        kind = token.type
+        if kind == "tr_open" and token.level == tokens[start].level + 2:
+            rows.append([])
+        elif kind in ("th_open", "td_open"):
+            cell_open = token
+        elif kind == "inline" and cell_open is not None:
+            if cell_open.type == "th_open":
+                headers.append(inline_text(token))
+                right.append("right" in str(cell_open.attrs.get("style", "")))
+            elif rows:
+                rows[-1].append(inline_text(token))
+    folded = Token(TABLE_TOKEN, "table", 0, map=tokens[start].map)
+    folded.meta = {"headers": headers, "right": right, "rows": [row for row in rows if row]}
+    return folded
+
+
+def _fold_list(tokens: list[Token], start: int, end: int) -> Token | None:
+    """One token for a list whose items each hold one paragraph; None for any other list."""
+    items: list[tuple[str, Text]] = []
+    j = start + 1
+    while j < end:
+        if not (j + 4 < end and tokens[j].type == "list_item_open" and tokens[j + 1].type == "paragraph_open"
+                and tokens[j + 2].type == "inline" and tokens[j + 3].type == "paragraph_close"
+                and tokens[j + 4].type == "list_item_close"):
+            return None
+        items.append((tokens[j].info, inline_text(tokens[j + 2])))
+        j += 5
+    folded = Token(LIST_TOKEN, "list", 0, map=tokens[start].map)
+    folded.meta = {"ordered": tokens[start].type == "ordered_list_open", "items": items}
+    return folded
+
+
+def fold_blocks(state) -> None:
+    """markdown-it core step: each table, and each list of one-paragraph items, becomes one token."""
+    tokens: list[Token] = state.tokens
+    out: list[Token] = []
+    i = 0
+    while i < len(tokens):
+        kind = tokens[i].type
+        if kind in ("table_open", "bullet_list_open", "ordered_list_open"):
+            end = _closing(tokens, i)
+            folded = _fold_table(tokens, i, end) if kind == "table_open" else _fold_list(tokens, i, end)
+            if folded is not None:
+                folded.level = tokens[i].level
+                out.append(folded)
+                i = end + 1
+                continue
+        out.append(tokens[i])
+        i += 1
+    state.tokens = out
+
+
+def preview_parser() -> MarkdownIt:
+    """Textual's own parser settings, with the folding step added at the end."""
+    parser = MarkdownIt("gfm-like")
+    parser.core.ruler.push("vetting_fold_blocks", fold_blocks)
+    return parser
+
+
+class PreviewTable(MarkdownBlock):
+    """A whole Markdown table in one widget: a Rich table, header row in bold under a rule,
+    numeric columns aligned right, long cells wrapped within the pane."""
+
+    DEFAULT_CSS = """
+    PreviewTable {
+        width: 1fr;
+        height: auto;
+        margin-bottom: 1;
+    }
+    """
+
+    def __init__(self, markdown: Markdown, token: Token) -> None:
+        super().__init__(markdown, token)
+        meta = token.meta
+        # no outer frame and one space beside each rule between columns: a wide table keeps
+        # as much of the pane's width for its text as it can (a word too long for its column
+        # ends in an ellipsis, as in Textual's own table)
+        table = Table(box=box.MINIMAL_HEAVY_HEAD, header_style="bold", border_style="dim", show_edge=False,
+                      pad_edge=False, padding=(0, 1), collapse_padding=True, expand=False)
+        for header, right in zip(meta["headers"], meta["right"]):
+            table.add_column(header, justify="right" if right else "left", overflow="ellipsis")
+        for row in meta["rows"]:
+            table.add_row(*row)
+        self.rows = meta["rows"]
+        self.table = table
+        self.update(table)
+
+
+class PreviewList(MarkdownBlock):
+    """A whole list of one-paragraph items in one widget: the bullets (or numbers) in a column
+    of their own, so that a long item wraps under its own text."""
+
+    DEFAULT_CSS = """
+    PreviewList {
+        width: 1fr;
+        height: auto;
+        margin: 0 0 1 0;
+    }
+    """
+
+    def __init__(self, markdown: Markdown, token: Token) -> None:
+        super().__init__(markdown, token)
+        items = token.meta["items"]
+        grid = Table.grid(padding=(0, 1), expand=True)
+        grid.add_column(no_wrap=True, justify="right")
+        grid.add_column(ratio=1)
+        for number, (info, text) in enumerate(items, 1):
+            bullet = f"{info or number}." if token.meta["ordered"] else "•"
+            grid.add_row(Text(bullet, style="bold"), text)
+        self.items = [text for _info, text in items]
+        self.update(grid)
+
+
+class PreviewMarkdown(Markdown):
+    """Textual's Markdown widget with each table and each simple list as one widget."""
+
+    def __init__(self, markdown: str | None = None, **kwargs) -> None:
+        super().__init__(markdown, parser_factory=preview_parser, **kwargs)
+
+    def unhandled_token(self, token: Token) -> MarkdownBlock | None:
+        if token.type == TABLE_TOKEN:
+            return PreviewTable(self, token)
+        if token.type == LIST_TOKEN:
+            return PreviewList(self, token)
+        return super().unhandled_token(token)
+
+
 class PreviewScroll(VerticalScroll):
     """The preview's scrolling pane: Textual's VerticalScroll, restyling only itself when it
     gains or loses focus.
@@ -137,7 +331,7 @@ class MemoScreen(Screen):
             yield Static("Reading the records…", id="working-text")  # the preview's first step
             yield ProgressBar(total=3, show_eta=False, id="progress")
         with PreviewScroll(id="preview"):
-            yield Markdown("", id="memo-md")
+            yield PreviewMarkdown("", id="memo-md")
         yield Static("", id="written", classes="status-line")
         yield CautionLine()
         yield Footer()
