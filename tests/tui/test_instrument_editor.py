@@ -308,3 +308,134 @@ async def test_the_label_shows_a_broken_rule_by_weight_as_well_as_colour(db_url,
         await _type_into(pilot, minutes, "30")
         assert not minutes.has_class("-invalid") and not _bold(minutes.render())
         assert not minutes.query_one(".field-message").display
+
+
+# -- opening: the record is read before the editor is shown -------------------------------------
+
+
+def _record_layouts(monkeypatch) -> list[tuple[str, bool]]:
+    """(screen, whether its form was there) for every layout of a screen from now on."""
+    from textual.screen import Screen
+
+    seen: list[tuple[str, bool]] = []
+    original = Screen._refresh_layout
+
+    def layout(self, *args, **kwargs):
+        seen.append((type(self).__name__, bool(getattr(self, "ready", True))))
+        return original(self, *args, **kwargs)
+
+    monkeypatch.setattr(Screen, "_refresh_layout", layout)
+    return seen
+
+
+async def _open_first_row(pilot, settle) -> None:
+    await settle(pilot)
+    pilot.app.screen.query_one("#table").focus()
+    await pilot.pause()
+    await pilot.press("enter")
+
+
+async def test_a_quick_read_shows_the_form_in_the_editors_first_paint(seeded_url, app_for, settle, monkeypatch):
+    """Opening waits briefly for the record, so no "loading…" state is laid out or painted
+    before the form (common practice for a responsive form, no published source)."""
+    from vetting.tui.widgets.footer import Footer
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        layouts = _record_layouts(monkeypatch)
+        rebuilt: list[str] = []
+        original_recompose = Footer.recompose
+
+        async def recompose(self):
+            rebuilt.append(type(self.screen).__name__)
+            await original_recompose(self)
+
+        monkeypatch.setattr(Footer, "recompose", recompose)
+        await _open_first_row(pilot, settle)
+        await settle(pilot)
+        editor = app.screen
+        assert isinstance(editor, InstrumentEditor) and editor.ready
+        assert editor.query("#sections") and not editor.query(".hint")
+        editor_layouts = [ready for name, ready in layouts if name == "InstrumentEditor"]
+        assert editor_layouts and all(editor_layouts)  # never laid out without its form
+        assert isinstance(app.focused, Input) and app.focused is _field(editor, ".description", "title").input \
+            or app.focused is _field(editor, ".description", "key").input
+        # the key line was built with the form and showed the right keys at once
+        footer = editor.query_one(Footer)
+        assert "Save" in {k.description for k in footer.query("FooterKey")}
+        assert "InstrumentEditor" not in rebuilt
+
+
+async def test_a_slow_read_shows_loading_then_the_form(seeded_url, app_for, settle, monkeypatch):
+    """A slow database: the editor appears at once saying "loading…" and stays responsive;
+    the form follows when the record arrives (common practice, no published source)."""
+    import threading
+
+    release = threading.Event()
+    original = InstrumentEditor.load_record
+
+    def slow_read(self):
+        release.wait(5)
+        return original(self)
+
+    monkeypatch.setattr(InstrumentEditor, "load_record", slow_read)
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        layouts = _record_layouts(monkeypatch)
+        await _open_first_row(pilot, settle)
+        await pilot.pause(InstrumentEditor.QUICK_READ_SECONDS + 0.2)
+        for _ in range(3):
+            await pilot.pause()  # (not settle: it waits for the read)
+        editor = app.screen
+        assert isinstance(editor, InstrumentEditor) and not editor.ready
+        assert "loading" in str(editor.query_one(".hint").render())
+        assert ("InstrumentEditor", False) in layouts  # the loading state was laid out and shown
+        await pilot.press("ctrl+o")  # keys wait for the form without failing
+        release.set()
+        await app.workers.wait_for_complete()
+        await settle(pilot)
+        assert editor.ready and editor.query("#sections") and not editor.query(".hint")
+        assert app.focused is not None and isinstance(app.focused, Input)
+        assert editor.original is not None and editor.original.key == editor.key
+
+
+async def test_next_section_with_a_list_enables_add_entry_in_place(seeded_url, app_for, settle, monkeypatch):
+    """The key line says which keys work where (common practice, no published source): in a
+    section holding a list "Add entry" is enabled, and only that key is redrawn."""
+    from vetting.tui.widgets.footer import Footer
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(160, 48)) as pilot:
+        await _open_first_row(pilot, settle)
+        await settle(pilot)
+        editor = app.screen
+        assert isinstance(editor, InstrumentEditor)
+        rebuilt: list[int] = []
+        original_recompose = Footer.recompose
+
+        async def recompose(self):
+            rebuilt.append(1)
+            await original_recompose(self)
+
+        monkeypatch.setattr(Footer, "recompose", recompose)
+        footer = editor.query_one(Footer)
+
+        def add_key():
+            return next(k for k in footer.query("FooterKey") if k.action == "add_entry")
+
+        assert add_key().has_class("-disabled")  # the first section holds one record
+        for _ in range(len(editor.sections())):
+            await pilot.press("ctrl+o")
+            await settle(pilot)
+            if editor._current_list() is not None:
+                break
+        assert editor._current_list() is not None
+        assert not add_key().has_class("-disabled")
+        assert rebuilt == []
+        # every key as a freshly built key line would show it
+        expected = {(b.key, b.action): enabled for (_, b, enabled, _) in editor.active_bindings.values() if b.show}
+        shown = {(k.key, k.action): not k.has_class("-disabled") for k in footer.query("FooterKey")
+                 if (k.key, k.action) in expected}
+        assert shown == expected
