@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import os
 
 import pytest
 from scipy.stats import norm
@@ -313,6 +314,18 @@ async def test_memo_preview_and_word_export(seeded_url, app_for, settle, size, t
         assert "local employment law" in screen.markdown  # the memo's cautions
         assert "vetting-memo-stamp" not in screen.markdown  # the machine stamp is not previewed
         assert screen.query_one("#memo-md", Markdown).source == screen.markdown
+        # the preview's tables are one widget each, and the ranking's first row is the engine's top
+        from rich.console import Console
+
+        from vetting.tui.screens.memo import PreviewTable
+
+        tables = list(screen.query(PreviewTable))
+        assert tables and not screen.query("MarkdownTableCellContents")
+        ranked = [t for t in tables if t.rows and top.title in t.rows[0][0].plain]
+        assert ranked, [t.rows[0][0].plain for t in tables if t.rows]
+        console = Console(width=156, record=True, file=open(os.devnull, "w"))  # the pane at 160 columns
+        console.print(ranked[0].table)
+        assert f"{top.title} ({top.instrument})" in console.export_text()
         target = tmp_path / "memo.docx"
         await pilot.press("w")
         await pilot.pause()

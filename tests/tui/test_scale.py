@@ -432,3 +432,63 @@ async def test_memo_preview_of_1000_instruments_is_one_widget_per_table_and_list
             assert rows[0][0] in shown and rows[-1][0] in shown
         cut_notes = [p for p in preview.query("MarkdownParagraph") if "more rows: the exported memo" in str(p.render())]
         assert cut_notes
+
+
+def test_a_folded_table_is_drawn_once_per_width_and_as_rich_draws_it():
+    from rich.console import Console
+
+    from vetting.tui.screens.memo import TABLE_TOKEN, preview_parser
+
+    text = "| Instrument | r |\n|---|---:|\n" + "".join(f"| Test number {n} with a long title | 0.{n:02d} |\n"
+                                                      for n in range(30))
+    console = Console(width=200, file=open("/dev/null", "w"), legacy_windows=False)
+    options = console.options.update_width(40)
+    token = next(t for t in preview_parser((console, options)).parse(text) if t.type == TABLE_TOKEN)
+    drawn = token.meta["drawn"]
+    drawn_table = drawn.renderable
+    calls = []
+    original = type(drawn_table).__rich_console__
+
+    def counting(self, console_, options_):
+        calls.append(options_.max_width)
+        return original(self, console_, options_)
+
+    type(drawn_table).__rich_console__ = counting
+    try:
+        for width in (40, 40, 60, 40):
+            shown = console.render_lines(drawn, console.options.update_width(width), pad=False)
+            expected = console.render_lines(drawn_table, console.options.update_width(width), pad=False)
+            assert shown == expected  # the reference: Rich drawing the same table itself
+    finally:
+        type(drawn_table).__rich_console__ = original
+    # drawn at 40 when parsed, so only the 60 and the four reference draws; never 40 again
+    assert calls.count(60) == 2 and calls.count(40) == 3
+
+
+def test_the_gathered_records_are_let_go_in_steps_without_changing_anything():
+    import weakref
+
+    from vetting.tui.screens.memo import drop_in_steps, items_of
+
+    class Record:
+        pass
+
+    class Data:
+        pass
+
+    records = [Record() for _ in range(1000)]
+    shared = [Record() for _ in range(3)]
+    inner = Data()
+    inner.results = tuple(Record() for _ in range(500))
+    data = Data()
+    data.instruments, data.by_key, data.ranking, data.shared, data.name = (
+        list(records), {i: r for i, r in enumerate(records)}, inner, shared, "x")
+    refs = [weakref.ref(r) for r in records + list(inner.results)]
+    del records, inner
+    held = items_of(data)
+    assert len(held) == 1000 + 1000 + 500 + 3
+    del data
+    assert all(r() is not None for r in refs)  # held, not freed with the containers
+    drop_in_steps(held, step=7)
+    assert held == [] and all(r() is None for r in refs)
+    assert len(shared) == 3 and all(isinstance(r, Record) for r in shared)  # still referred to: untouched
