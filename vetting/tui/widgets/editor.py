@@ -163,12 +163,11 @@ class EditorScreen(Screen):
         # Shown for the first time with its form (read first, `open_in`): every widget was
         # styled as it was mounted, just now, so the restyle of every widget Textual does when
         # a screen is shown would change nothing (it cost a second layout and paint)
-        # (Textual then calls Screen's own handler with the event: handlers of every class are
-        # called, so this one does not call it)
         if self._fresh:
             self._fresh = False
             self._skip_resize = self.ready
             event.refresh_styles = not self.ready
+        super()._on_screen_resume(event)
 
     def _screen_resized(self, size: Any) -> None:
         # The first layout after the screen is shown sends the screen a Resize, which lays
