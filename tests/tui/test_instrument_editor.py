@@ -439,27 +439,3 @@ async def test_next_section_with_a_list_enables_add_entry_in_place(seeded_url, a
         shown = {(k.key, k.action): not k.has_class("-disabled") for k in footer.query("FooterKey")
                  if (k.key, k.action) in expected}
         assert shown == expected
-
-
-async def test_enter_pressed_twice_while_reading_opens_one_editor(seeded_url, app_for, settle, monkeypatch):
-    """A key pressed twice opens the record once (common practice, no published source)."""
-    import time
-
-    original = InstrumentEditor.load_record
-
-    def read(self):  # both presses arrive while the record is read (still a quick read)
-        time.sleep(InstrumentEditor.QUICK_READ_SECONDS / 2)
-        return original(self)
-
-    monkeypatch.setattr(InstrumentEditor, "load_record", read)
-    app = app_for(seeded_url)
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        app.screen.query_one("#table").focus()
-        await pilot.pause()
-        await pilot.press("enter", "enter")
-        await settle(pilot)
-        await pilot.pause(InstrumentEditor.QUICK_READ_SECONDS + 0.1)
-        await settle(pilot)
-        editors = [s for s in app.screen_stack if isinstance(s, InstrumentEditor)]
-        assert len(editors) == 1 and editors[0].ready

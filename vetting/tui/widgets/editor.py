@@ -120,9 +120,6 @@ class EditorScreen(Screen):
         timer = app.set_timer(self.QUICK_READ_SECONDS, show)
 
         def arrived(record: Any, exc: Exception | None) -> None:
-            if worker.is_cancelled and not shown:
-                timer.stop()  # opened again (Enter pressed twice): the later opening shows
-                return
             timer.stop()
             self._reading = False
             self._read = (record, exc)
@@ -146,7 +143,7 @@ class EditorScreen(Screen):
 
             contextvars.Context().run(run)
 
-        worker = app.run_worker(read, thread=True, group="editor-open", exclusive=True)
+        app.run_worker(read, thread=True, group="editor-open", exclusive=True)
 
     async def on_mount(self) -> None:
         self._mounted = True
