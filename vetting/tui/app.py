@@ -465,13 +465,13 @@ class VettingApp(App[int]):
         from vetting.tui.screens.instrument import InstrumentEditor
 
         self._screen_closed = True
-        InstrumentEditor(key).open_in(self)
+        self.push_screen(InstrumentEditor(key))
 
     def open_job(self, key: str | None) -> None:
         from vetting.tui.screens.job import JobEditor
 
         self._screen_closed = True
-        JobEditor(key).open_in(self)
+        self.push_screen(JobEditor(key))
 
     # -- looks -------------------------------------------------------------------------------
 

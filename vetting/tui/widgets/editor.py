@@ -3,7 +3,6 @@ entries, checking before saving, unsaved-change tracking and the result banner."
 
 from __future__ import annotations
 
-import contextvars
 from typing import Any
 
 from textual import work
@@ -27,9 +26,6 @@ class EditorScreen(Screen):
     AUTO_FOCUS = None
     #: build a section's fields only when it is first shown (keeps opening fast)
     LAZY = True
-    #: how long `open_in` waits for the record before showing the editor saying "loading…";
-    #: a quicker read shows the editor with its form in the first paint
-    QUICK_READ_SECONDS = 0.15
 
     BINDINGS = [
         Binding("f9", "save", "Save", id="editor.save", tooltip="Check every field and save"),
@@ -57,14 +53,6 @@ class EditorScreen(Screen):
         self._builders: dict[str, Any] = {}
         self.ready = False
         self.saving = False
-        #: `open_in`: True while the record is read before the screen is shown
-        self._reading = False
-        #: the record (or the reason it could not be read) once read, until shown
-        self._read: tuple[Any, Exception | None] | None = None
-        self._mounted = False
-        #: True until the screen is first shown
-        self._fresh = True
-        self._skip_resize = False
 
     # -- layout ------------------------------------------------------------------------------
 
@@ -72,16 +60,6 @@ class EditorScreen(Screen):
         yield NavBar(self.nav_place)
         yield Static(self._heading(), id="heading", classes="title-bar", markup=False)
         yield Static("", id="banner", classes="form-banner", markup=False)
-        if self._read is not None and self._read[1] is None:
-            # read before the screen was shown (`open_in`): the form comes with the screen,
-            # one layout and paint, and the key line with it (on_mount puts the cursor in the
-            # first field before anything is painted)
-            self.original = self._read[0]
-            self._read = None
-            yield Vertical(self._form(), id="body")
-            self.ready = True
-            yield Footer()
-            return
         yield Vertical(Static("loading…", classes="hint"), id="body")
         # the key line comes with the form (_show_record): drawn while the record loads, it was
         # drawn again, in another state or order, as soon as the form arrived
@@ -102,91 +80,8 @@ class EditorScreen(Screen):
         """Runs in a worker thread: read what the form needs. Returns the record or None."""
         raise NotImplementedError
 
-    def open_in(self, app: Any) -> None:
-        """Show this editor in `app` once its record is read, so the form is in the first paint.
-
-        The record is read in a worker (a slow database leaves the interface responsive); a
-        read slower than QUICK_READ_SECONDS shows the editor at once saying "loading…", and
-        the form follows when the record arrives (as when the screen is pushed directly)."""
-        self._reading = True
-        shown = False
-
-        def show() -> None:
-            nonlocal shown
-            if not shown:
-                shown = True
-                app.push_screen(self)
-
-        timer = app.set_timer(self.QUICK_READ_SECONDS, show)
-
-        def arrived(record: Any, exc: Exception | None) -> None:
-            timer.stop()
-            self._reading = False
-            self._read = (record, exc)
-            if not shown:
-                show()  # quick: the form is composed with the screen
-            elif self._mounted:
-                self.call_later(self._deliver)  # slow: the editor says "loading…"
-            # else: pushed, not mounted yet: on_mount delivers it
-
-        def read() -> None:
-            def run() -> None:
-                from textual._context import active_app
-
-                active_app.set(app)  # the screen is not in the app yet
-                try:
-                    record = self.load_record()
-                except Exception as exc:
-                    app.call_from_thread(arrived, None, exc)
-                    return
-                app.call_from_thread(arrived, record, None)
-
-            contextvars.Context().run(run)
-
-        app.run_worker(read, thread=True, group="editor-open", exclusive=True)
-
-    async def on_mount(self) -> None:
-        self._mounted = True
-        if self.ready:  # the form came with the screen (compose)
-            self._after_show()
-            for pane_id in self._initial_by_pane:
-                self._remember(pane_id)
-        elif self._read is not None:
-            await self._deliver()
-        elif not self._reading:
-            self._load()
-
-    def _on_screen_resume(self, event: Any) -> None:
-        # Shown for the first time with its form (read first, `open_in`): every widget was
-        # styled as it was mounted, just now, so the restyle of every widget Textual does when
-        # a screen is shown would change nothing (it cost a second layout and paint)
-        if self._fresh:
-            self._fresh = False
-            self._skip_resize = self.ready
-            event.refresh_styles = not self.ready
-        super()._on_screen_resume(event)
-
-    def _screen_resized(self, size: Any) -> None:
-        # The first layout after the screen is shown sends the screen a Resize, which lays
-        # it out again at the size it was just laid out at; with the form on the screen (read
-        # first, `open_in`) that second pass costs as much as a paint. Skipped once, when the
-        # size is the one just laid out (a layout asked for since is done by the screen's
-        # next update, as any other); every later resize is done.
-        if self._skip_resize and self._compositor.size == size:
-            self._skip_resize = False
-            return
-        self._skip_resize = False
-        super()._screen_resized(size)
-
-    async def _deliver(self) -> None:
-        if self._read is None:
-            return
-        record, exc = self._read
-        self._read = None
-        if exc is not None:
-            self._load_failed(exc)
-        else:
-            await self._show_record(record)
+    def on_mount(self) -> None:
+        self._load()
 
     @work(thread=True, exclusive=True, group="editor-load")
     def _load(self) -> None:
@@ -202,28 +97,24 @@ class EditorScreen(Screen):
         self.banner(f"✗ Could not open {self.record_label}: {exc}", error=True)
         self.query_one("#body").remove_children()
 
-    def _form(self) -> TabbedContent:
-        """Every section's tab and (empty) pane, and the first section's fields (every
-        section's when not lazy), put together to be mounted at once: one layout pass instead
-        of one per section. A section not built yet is an empty pane (its scrolling area comes
-        with its fields)."""
+    async def _show_record(self, record: Any) -> None:
+        self.original = record
+        body = self.query_one("#body", Vertical)
+        # Every section's tab and (empty) pane, and the first section's fields, are put together
+        # first and mounted at once: one layout pass instead of one per section. A section not
+        # built yet is an empty pane (its scrolling area comes with its fields).
         tabs = TabbedContent(id="sections")
         self._builders = {}
+        built: list[str] = []
         lazy = self.lazy()
         for index, (pane_id, title, builder) in enumerate(self.sections()):
             self._builders[pane_id] = builder
             if index == 0 or not lazy:
                 self._initial_by_pane[pane_id] = ()  # building
+                built.append(pane_id)
                 tabs.compose_add_child(TabPane(title, self._section(builder()), id=pane_id))
             else:
                 tabs.compose_add_child(TabPane(title, id=pane_id))
-        return tabs
-
-    async def _show_record(self, record: Any) -> None:
-        self.original = record
-        body = self.query_one("#body", Vertical)
-        tabs = self._form()
-        built = list(self._initial_by_pane)
         # no layout or paint of the half-mounted form while it is put in place
         with self.app.batch_update():
             await body.remove_children()

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 from textual.screen import Screen
 from textual.widgets import Footer as _TextualFooter
-from textual.widgets._footer import FooterKey
 
 
 class Footer(_TextualFooter):
@@ -31,22 +30,6 @@ class Footer(_TextualFooter):
         )
         return keys, self.show_command_palette, self.compact
 
-    def compose(self):
-        # Textual's Footer shows nothing until the screen first says its bindings changed, and
-        # then builds its keys a second time (a layout and paint on every screen opened). The
-        # keys are known as soon as the footer is built: show them, and record what is shown,
-        # so that first signal finds nothing to change.
-        if not self._bindings_ready:
-            try:
-                self._shown = self._keys_shown()
-            except Exception:  # the screen cannot say yet: wait for its signal, as Textual does
-                self._shown = None
-            else:
-                self.set_reactive(_TextualFooter._bindings_ready, True)
-        else:
-            self._shown = self._keys_shown()
-        yield from super().compose()
-
     def bindings_changed(self, screen: Screen) -> None:
         self._bindings_ready = True
         if not screen.app.app_focus:
@@ -62,36 +45,8 @@ class Footer(_TextualFooter):
         shown = self._keys_shown()
         if shown == self._shown:
             return
-        old, self._shown = self._shown, shown
-        if old is not None and self._enable_in_place(old, shown):
-            return
+        self._shown = shown
         await self.recompose()
-
-    #: where a key's enabled state sits in the tuples of `_keys_shown`
-    _ENABLED = 4
-
-    def _enable_in_place(self, old: tuple, new: tuple) -> bool:
-        """When only keys' enabled states changed (e.g. "Add entry" in a section with a list),
-        change those keys as Textual's Footer draws them (the -disabled class) instead of
-        building every key again. False when anything else changed."""
-        (old_keys, *old_rest), (new_keys, *new_rest) = old, new
-        if old_rest != new_rest or len(old_keys) != len(new_keys):
-            return False
-        i = self._ENABLED
-        changed = {}
-        for a, b in zip(old_keys, new_keys):
-            if a[:i] + a[i + 1:] != b[:i] + b[i + 1:]:
-                return False
-            if a[i] != b[i]:
-                changed[(b[0], b[3])] = b[i]
-        widgets = {(w.key, w.action): w for w in self.query(FooterKey)}
-        if not all(k in widgets for k in changed):
-            return False
-        for k, enabled in changed.items():
-            widget = widgets[k]
-            widget._disabled = not enabled
-            widget.set_class(not enabled, "-disabled")
-        return True
 
 
 __all__ = ["Footer"]
