@@ -347,3 +347,22 @@ def test_sort_keys_match_the_one_pass_order_with_many_ties_and_gaps():
         assert [r.key for r in SortKeys(rows).ordered(column, reverse)] == expected
 
     check()
+
+
+async def test_down_then_enter_typed_at_once_opens_the_instrument(seeded_url, app_for, settle):
+    """A quick typist presses Down (from the filter into the table) and Enter before the
+    interface has drawn anything: the Enter must reach the table and open the highlighted
+    instrument, not land on the filter it just left. Both keys are queued as a terminal
+    delivers them, with no pause in between (the Pilot waits after each key)."""
+    from textual import events
+
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        assert app.focused is screen.query_one("#filter", Input)
+        for key in ("down", "enter"):
+            app._driver.send_message(events.Key(key, None))
+        await settle(pilot)
+        assert type(app.screen).__name__ == "InstrumentEditor"
+        assert app.screen.key == "calm-index"

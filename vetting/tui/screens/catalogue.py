@@ -442,7 +442,9 @@ class CatalogueScreen(Screen):
         box.focus()
 
     def action_to_table(self) -> None:
-        self.query_one(DataTable).focus()
+        # focus at once (Widget.focus waits for the queued messages): a key typed right after
+        # Down, such as Enter, must reach the table and not the filter just left
+        self.set_focus(self.query_one(DataTable))
 
     def action_reload(self) -> None:
         self.query_one("#count", Static).update("reloading…")
@@ -483,7 +485,7 @@ class CatalogueScreen(Screen):
     @on(Input.Submitted, "#filter")
     def _filter_submitted(self, event: Input.Submitted) -> None:
         if self.shown:
-            self.query_one(DataTable).focus()
+            self.set_focus(self.query_one(DataTable))  # at once, as action_to_table
 
     def action_new_instrument(self) -> None:
         self.app.open_instrument(None)
