@@ -244,28 +244,42 @@ async def test_sections_never_shown_keep_what_is_stored(seeded_url, app_for, set
         assert len(store.policy_versions("claims-clerk")) == 1
 
 
+def _thirty_requirements(url: str, *, varied: bool) -> list[str]:
+    """Give the seeded job 'claims-clerk' 30 requirements (new attributes skill-00..29); with
+    `varied`, importance 1-5 in turn and every seventh critical. Returns the attribute keys."""
+    attrs = [f"skill-{i:02d}" for i in range(30)]
+    with Store.open(url) as store:
+        for key in attrs:
+            store.save_attribute(Attribute(key=key, name=key))
+        job = store.job("claims-clerk")
+        job.requirements = [
+            Requirement(attribute=a, importance=1 + i % 5, critical=i % 7 == 0) if varied else Requirement(attribute=a)
+            for i, a in enumerate(attrs)
+        ]
+        store.save_job(job)
+    return attrs
+
+
+async def _open_requirements(app, pilot, settle):
+    """Open the job editor on 'claims-clerk' and show its requirements (Ctrl+O)."""
+    await settle(pilot)
+    app.open_job("claims-clerk")
+    await settle(pilot)
+    editor = app.screen
+    await pilot.press("ctrl+o")  # requirements
+    await settle(pilot)
+    return editor, editor.query_one("#list-requirements", RecordList)
+
+
 async def test_a_long_list_builds_its_blocks_as_they_are_needed(seeded_url, app_for, settle):
     """A job needing 30 attributes: showing its requirements mounts only the blocks that fill
     about a screen; the next ones are mounted when the cursor reaches the last blocks or the
     list is scrolled to its end. The pending ones count as stored (nothing unsaved), a record
     added meanwhile goes after all 30, and saving writes every requirement in order."""
-    attrs = [f"skill-{i:02d}" for i in range(30)]
-    with Store.open(seeded_url) as store:
-        for key in attrs:
-            store.save_attribute(Attribute(key=key, name=key))
-        job = store.job("claims-clerk")
-        job.requirements = [Requirement(attribute=a, importance=1 + i % 5, critical=i % 7 == 0)
-                            for i, a in enumerate(attrs)]
-        store.save_job(job)
+    attrs = _thirty_requirements(seeded_url, varied=True)
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
-        await pilot.press("ctrl+o")  # requirements
-        await settle(pilot)
-        reqs = editor.query_one("#list-requirements", RecordList)
+        editor, reqs = await _open_requirements(app, pilot, settle)
         first = len(reqs.blocks)
         assert 0 < first < 30 and first + len(reqs.pending) == 30
         assert not editor.is_dirty()
@@ -288,12 +302,7 @@ async def test_a_long_list_builds_its_blocks_as_they_are_needed(seeded_url, app_
         await settle(pilot)
         assert not isinstance(app.screen, JobEditor)  # nothing unsaved: no question
 
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
-        await pilot.press("ctrl+o")
-        await settle(pilot)
-        reqs = editor.query_one("#list-requirements", RecordList)
+        editor, reqs = await _open_requirements(app, pilot, settle)
         assert reqs.pending
         await pilot.press("ctrl+n")  # while blocks are pending: the new one goes last
         await settle(pilot)
@@ -316,22 +325,10 @@ async def test_saving_checks_the_records_not_yet_built(seeded_url, app_for, sett
     """Saving mounts and checks every record of a long list, also those never scrolled to: a
     pending record naming an attribute already listed (put there by hand, since the store
     refuses such a job) is found and refused like a typed one."""
-    attrs = [f"skill-{i:02d}" for i in range(30)]
-    with Store.open(seeded_url) as store:
-        for key in attrs:
-            store.save_attribute(Attribute(key=key, name=key))
-        job = store.job("claims-clerk")
-        job.requirements = [Requirement(attribute=a) for a in attrs]
-        store.save_job(job)
+    _thirty_requirements(seeded_url, varied=False)
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
-        await pilot.press("ctrl+o")
-        await settle(pilot)
-        reqs = editor.query_one("#list-requirements", RecordList)
+        editor, reqs = await _open_requirements(app, pilot, settle)
         assert reqs.pending
         reqs.pending[-1]["attribute"] = "skill-00"  # as if stored twice: refused on saving
         await pilot.press("f9")
