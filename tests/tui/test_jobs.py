@@ -24,6 +24,38 @@ async def _type_into(pilot, field: RuleField, text: str) -> None:
     await pilot.pause()
 
 
+def _thirty_requirements(url: str, *, varied: bool) -> list[str]:
+    """Give the seeded job 'claims-clerk' 30 requirements (new attributes skill-00..29); with
+    `varied`, importance 1-5 in turn and every seventh critical. Returns the attribute keys."""
+    attrs = [f"skill-{i:02d}" for i in range(30)]
+    with Store.open(url) as store:
+        for key in attrs:
+            store.save_attribute(Attribute(key=key, name=key))
+        job = store.job("claims-clerk")
+        job.requirements = [
+            Requirement(attribute=a, importance=1 + i % 5, critical=i % 7 == 0) if varied else Requirement(attribute=a)
+            for i, a in enumerate(attrs)
+        ]
+        store.save_job(job)
+    return attrs
+
+
+async def _open_job(app, pilot, settle, key: str = "claims-clerk"):
+    """Open the job editor on a stored job once the app has settled; returns the editor."""
+    await settle(pilot)
+    app.open_job(key)
+    await settle(pilot)
+    return app.screen
+
+
+async def _open_requirements(app, pilot, settle):
+    """Open the job editor on 'claims-clerk' and show its requirements (Ctrl+O)."""
+    editor = await _open_job(app, pilot, settle)
+    await pilot.press("ctrl+o")  # requirements
+    await settle(pilot)
+    return editor, editor.query_one("#list-requirements", RecordList)
+
+
 async def test_jobs_list_and_current_job(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(80, 24)) as pilot:
@@ -92,10 +124,7 @@ async def test_new_job_with_three_attributes(db_url, app_for, settle):
 async def test_weights_all_zero_are_refused(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_job(app, pilot, settle)
         editor.query_one("#sections", TabbedContent).active = "policy"
         await settle(pilot)
         weights = editor.query_one(".policy-weights", RecordBlock).fields
@@ -115,10 +144,7 @@ async def test_weights_all_zero_are_refused(seeded_url, app_for, settle):
 async def test_policy_change_makes_a_version_and_lock_freezes_it(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_job(app, pilot, settle)
         editor.query_one("#sections", TabbedContent).active = "policy"
         await settle(pilot)
         # lock version 1 first
@@ -189,10 +215,7 @@ async def test_lock_key_works_while_typing_in_a_field(seeded_url, app_for, settl
     take it as 'delete to the end of the line' and silently erase what was typed)."""
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_job(app, pilot, settle)
         title = editor.query_one(".job-profile", RecordBlock).fields["title"]
         title.input.focus()
         await pilot.pause()
@@ -216,10 +239,7 @@ async def test_sections_never_shown_keep_what_is_stored(seeded_url, app_for, set
         before = store.job("claims-clerk")
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_job(app, pilot, settle)
         assert not editor.built("requirements") and not editor.built("policy")
         title = editor.query_one(".job-profile", RecordBlock).fields["title"]
         await _type_into(pilot, title, "Claims clerk II")
@@ -242,33 +262,6 @@ async def test_sections_never_shown_keep_what_is_stored(seeded_url, app_for, set
         ]
         assert after.policy.version == before.policy.version == 1
         assert len(store.policy_versions("claims-clerk")) == 1
-
-
-def _thirty_requirements(url: str, *, varied: bool) -> list[str]:
-    """Give the seeded job 'claims-clerk' 30 requirements (new attributes skill-00..29); with
-    `varied`, importance 1-5 in turn and every seventh critical. Returns the attribute keys."""
-    attrs = [f"skill-{i:02d}" for i in range(30)]
-    with Store.open(url) as store:
-        for key in attrs:
-            store.save_attribute(Attribute(key=key, name=key))
-        job = store.job("claims-clerk")
-        job.requirements = [
-            Requirement(attribute=a, importance=1 + i % 5, critical=i % 7 == 0) if varied else Requirement(attribute=a)
-            for i, a in enumerate(attrs)
-        ]
-        store.save_job(job)
-    return attrs
-
-
-async def _open_requirements(app, pilot, settle):
-    """Open the job editor on 'claims-clerk' and show its requirements (Ctrl+O)."""
-    await settle(pilot)
-    app.open_job("claims-clerk")
-    await settle(pilot)
-    editor = app.screen
-    await pilot.press("ctrl+o")  # requirements
-    await settle(pilot)
-    return editor, editor.query_one("#list-requirements", RecordList)
 
 
 async def test_a_long_list_builds_its_blocks_as_they_are_needed(seeded_url, app_for, settle):
