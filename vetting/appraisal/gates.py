@@ -52,16 +52,30 @@ def _fmt(x: float) -> str:
     return f"{x:g}"
 
 
+def _reliability_choice(records: list[Reliability]) -> tuple[Reliability | None, tuple[str, ...] | None, list[Reliability]]:
+    """The record the reliability rule chooses, its tier (None: no record of a known type, the
+    lowest figure is taken) and the candidates of that tier. Shared by `choose_reliability`
+    and the ranking's eligibility screen, so both read the same figure."""
+    if not records:
+        return None, None, []
+    for tier in RELIABILITY_TIERS:
+        candidates = [r for r in records if r.type in tier]
+        if candidates:
+            return min(candidates, key=_reliability_order), tier, candidates
+    return min(records, key=lambda r: r.value), None, records
+
+
+def _reliability_order(r: Reliability) -> tuple:
+    return (-(r.n or 0), r.value)
+
+
 def choose_reliability(instrument: Instrument) -> ReliabilityUsed:
     """The reliability figure used for this instrument, with the reason it was chosen."""
     records = list(instrument.reliability)
     if not records:
         return ReliabilityUsed(type=None, value=None, n=None, why="no reliability figure is recorded")
-    for tier in RELIABILITY_TIERS:
-        candidates = [r for r in records if r.type in tier]
-        if not candidates:
-            continue
-        best: Reliability = sorted(candidates, key=lambda r: (-(r.n or 0), r.value))[0]
+    best, tier, candidates = _reliability_choice(records)
+    if tier is not None:
         others = [r.type for r in records if r is not best]
         why = f"{best.type} reliability {best.value:.2f}" + (f" (N = {best.n})" if best.n else " (N not stated)")
         if tier == RELIABILITY_TIERS[0]:
@@ -74,7 +88,7 @@ def choose_reliability(instrument: Instrument) -> ReliabilityUsed:
             why += f"; also recorded: {', '.join(sorted(set(others)))}"
         return ReliabilityUsed(type=best.type, value=best.value, n=best.n, why=why, source=best.source)
     # Unknown types cannot occur with validated records; use the lowest figure to stay conservative.
-    low = min(records, key=lambda r: r.value)
+    low = best
     return ReliabilityUsed(type=low.type, value=low.value, n=low.n, why=f"{low.type} reliability {low.value:.2f} (lowest recorded)")
 
 
@@ -168,3 +182,41 @@ def evaluate_gates(job: Job, instrument: Instrument, policy: Policy, used: Relia
     }
     assert tuple(results) == GATE_NAMES
     return results
+
+
+def passes_all_gates(job: Job, policy: Policy | None = None):
+    """A test `passes(instrument) -> bool` giving exactly `all(g.passed for g in
+    evaluate_gates(job, instrument, policy, choose_reliability(instrument)).values())` without
+    writing any gate's reasons: the same conditions, read once for the job, the cheapest first
+    and stopping at the first that fails. The ranking uses it to find the eligible instruments
+    before it writes anything about them (tests/appraisal/test_deferred_appraisal.py pins it
+    against the gates themselves)."""
+    policy = policy if policy is not None else job.policy
+    required = frozenset(r.attribute for r in job.requirements)
+    minimum = policy.min_reliability
+    limit = job.applicant_reading_grade
+    budget = job.time_budget_minutes
+    have = job.staff_qualification
+    have_rank = None if have is None else qualification_rank(have)
+    choice = _reliability_choice
+
+    def passes(instrument: Instrument) -> bool:
+        if not instrument.validity:  # validity_evidence
+            return False
+        if budget is not None and not instrument.minutes <= budget:  # time
+            return False
+        grade = instrument.reading_grade  # reading_level
+        if grade is not None and limit is not None and not grade <= limit:
+            return False
+        need = instrument.user_qualification  # qualification
+        if need is not None and have_rank is not None and not qualification_rank(need) <= have_rank:
+            return False
+        for m in instrument.measures:  # job_relatedness
+            if m.attribute in required:
+                break
+        else:
+            return False
+        best = choice(list(instrument.reliability))[0]  # reliability
+        return best is not None and best.value is not None and best.value >= minimum
+
+    return passes

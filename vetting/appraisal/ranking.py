@@ -25,14 +25,16 @@ all weights and instruments is reported.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
+import threading
 
 import numpy as np
 
 from vetting.appraisal import components as comp
 from vetting.appraisal.alternatives import find_alternatives
 from vetting.appraisal.errors import JobError
-from vetting.appraisal.gates import choose_reliability, evaluate_gates
+from vetting.appraisal.gates import choose_reliability, evaluate_gates, passes_all_gates
 from vetting.appraisal.policy import normalised_weights, validate_policy
 from vetting.appraisal.types import (
     COMPONENT_NAMES,
@@ -139,6 +141,115 @@ def appraise(job: Job, instrument: Instrument, weights: dict[str, float], as_of:
         publisher=instrument.publisher,
         impact_ratio=impact_ratio,
     )
+
+
+def _key(r: InstrumentAppraisal) -> str:
+    return r.instrument
+
+
+#: The fields of an appraisal that are written only when first read, for instruments that fail a
+#: gate (the key, title, publisher, eligibility, rank and p_best are known at once).
+_DEFERRED_FIELDS = ("score", "gates", "components", "warnings", "validity", "reliability_used", "impact_ratio")
+_FIELD_NAMES = tuple(f.name for f in dataclasses.fields(InstrumentAppraisal))
+
+
+class _Pending:
+    """The instruments of one ranking that failed a gate, appraised together on first reading.
+
+    fill() gives each of them exactly what rank() gave every instrument before (`appraise` with
+    the job's context, the expected impact ratios in one vectorised call and the validity
+    syntheses in one grouped call: per-instrument figures that do not depend on which other
+    instruments are in the call). The ranking keeps its records until then; like every result
+    of the engine it describes the records as they were given, so they should not be changed
+    while it is in use.
+    """
+
+    __slots__ = ("job", "weights", "as_of", "ctx", "waiting", "lock")
+
+    def __init__(self, job: Job, weights: dict[str, float], as_of: dt.date, ctx: comp.JobContext) -> None:
+        self.job, self.weights, self.as_of, self.ctx = job, weights, as_of, ctx
+        self.waiting: list[tuple[_DeferredAppraisal, Instrument]] | None = []
+        self.lock = threading.Lock()
+
+    def add(self, instrument: Instrument) -> "_DeferredAppraisal":
+        a = _new_deferred(_DeferredAppraisal)
+        a.instrument = instrument.key
+        a.title = instrument.title
+        a.eligible = False
+        a.rank = None
+        a.p_best = 0.0
+        a.publisher = instrument.publisher
+        a._pending = self
+        self.waiting.append((a, instrument))
+        return a
+
+    def fill(self) -> None:
+        with self.lock:
+            waiting = self.waiting
+            if waiting is None:
+                return
+            job, weights, as_of, ctx = self.job, self.weights, self.as_of, self.ctx
+            instruments = [ins for _, ins in waiting]
+            with gc_pause():
+                ratios = expected_impact_ratios(job, instruments)
+                details = comp.validity_details(instruments, job.policy, ctx)
+                for (target, ins), ratio, detail in zip(waiting, ratios, details):
+                    done = appraise(job, ins, weights, as_of, ratio, detail=detail, ctx=ctx)
+                    for name, (get, put) in _SLOTS.items():
+                        try:
+                            get(target)  # set by a caller before the first reading: kept
+                        except AttributeError:
+                            put(target, get(done))
+                    target._pending = None
+            self.waiting = None
+            self.job = self.ctx = None
+
+
+_new_deferred = object.__new__
+_SLOTS = {
+    name: (InstrumentAppraisal.__dict__[name].__get__, InstrumentAppraisal.__dict__[name].__set__)
+    for name in _DEFERRED_FIELDS
+}
+
+
+def _deferred_field(name: str) -> property:
+    get, put = _SLOTS[name]
+
+    def read(self):
+        try:
+            return get(self)
+        except AttributeError:
+            self._pending.fill()
+            return get(self)
+
+    return property(read, put, doc=f"{name} (written on first reading)")
+
+
+class _DeferredAppraisal(InstrumentAppraisal):
+    """An InstrumentAppraisal of an instrument that failed a gate, whose evidence (score, gates,
+    components, warnings, validity, reliability, impact ratio) is written on first reading of
+    any of them, for all such instruments of the ranking at once. Reads, compares, prints,
+    copies and pickles as the InstrumentAppraisal it stands for."""
+
+    __slots__ = ("_pending",)
+
+    def __eq__(self, other):
+        if not isinstance(other, InstrumentAppraisal):
+            return NotImplemented
+        return tuple(getattr(self, n) for n in _FIELD_NAMES) == tuple(getattr(other, n) for n in _FIELD_NAMES)
+
+    __hash__ = None  # as InstrumentAppraisal (a mutable dataclass)
+
+    def __repr__(self) -> str:
+        return "InstrumentAppraisal(" + ", ".join(f"{n}={getattr(self, n)!r}" for n in _FIELD_NAMES) + ")"
+
+    def __reduce__(self):
+        return InstrumentAppraisal, tuple(getattr(self, n) for n in _FIELD_NAMES)
+
+
+for _name in _DEFERRED_FIELDS:
+    setattr(_DeferredAppraisal, _name, _deferred_field(_name))
+del _name
 
 
 def _dedupe(warnings: list[AppraisalWarning]) -> list[AppraisalWarning]:
@@ -291,19 +402,28 @@ def rank(
     weights = normalised_weights(policy)
     with gc_pause():  # tens of thousands of small acyclic objects (see records.gcpause)
         ctx = comp.JobContext(job)
-        ratios = expected_impact_ratios(job, instruments)
-        details = comp.validity_details(instruments, policy, ctx)
-        results = [
+        # Only the instruments that pass every gate are appraised here: they are ordered, drawn
+        # and compared. The others are appraised on first reading (all of them at once, with
+        # the same calls: see _Pending), so a ranking that shows only its eligible instruments
+        # writes nothing about the rest.
+        passes = passes_all_gates(job, policy)
+        screened = [passes(ins) for ins in instruments]
+        kept = [ins for ins, ok in zip(instruments, screened) if ok]
+        ratios = expected_impact_ratios(job, kept)
+        details = comp.validity_details(kept, policy, ctx)
+        appraised = iter([
             appraise(job, ins, weights, as_of, ratio, detail=detail, ctx=ctx)
-            for ins, ratio, detail in zip(instruments, ratios, details)
-        ]
+            for ins, ratio, detail in zip(kept, ratios, details)
+        ])
+        pending = _Pending(job, weights, as_of, ctx)
+        results = [next(appraised) if ok else pending.add(ins) for ins, ok in zip(instruments, screened)]
 
     def order(r: InstrumentAppraisal):
         v = r.validity.conservative
         return (-r.score, -(v if v is not None else -1.0), r.instrument)
 
     eligible = sorted((r for r in results if r.eligible), key=order)
-    ineligible = sorted((r for r in results if not r.eligible), key=lambda r: r.instrument)
+    ineligible = sorted((r for r in results if not r.eligible), key=_key)
     for i, r in enumerate(eligible, start=1):
         r.rank = i
 
