@@ -77,6 +77,7 @@ class _State:
         self.next_shape_id: int | None = None  # the next drawing id, as StoryPart.next_id gives it
         self.sectPr = None  # the body's section properties, always its last child
         self.spliced: list[str] = []  # XML text of rows and paragraphs written as text (_Splice)
+        self.pictures: list = []  # (run, chart) of each picture still to place (_place_pictures)
 
 
 def _state(doc) -> _State:
@@ -320,26 +321,27 @@ def _style_table(doc, t) -> None:
     t._tbl.tblStyle_val = st.table_style_id
 
 
-def _add_picture(doc, stream, width):
-    """doc.add_picture(stream, width=width); returns the picture's paragraph. python-docx finds
-    the next drawing id by reading every id attribute of the whole document (XPath //@id) and
-    the text width from the last section; here both are kept as the document is written."""
+def _place_pictures(doc) -> None:
+    """Put each chart's picture into the run kept for it, in document order, as
+    doc.add_picture(stream, width=Inches(6.2)) puts it in place: nothing between the first
+    picture and the end of the body adds a relationship to the document part or a drawing, so
+    the image parts, their relationship ids and the drawing ids are those that adding them in
+    place gives (tests/memo compares the parts with python-docx's own add_picture). python-docx
+    finds the next drawing id by reading every id attribute of the whole document (XPath //@id)
+    and the text width from the last section; here both are kept as the document is written
+    (StoryPart.new_pic_inline, with the id counted here: no other element of ours has an id)."""
     from docx.oxml.shape import CT_Inline
+    from docx.shared import Inches
 
     st = _state(doc)
-    if st.reference:
-        doc.add_picture(stream, width=width)
-        return doc.paragraphs[-1]
-    p = doc.add_paragraph()
-    run = p.add_run()
     part = doc.part
-    # StoryPart.new_pic_inline, with the id counted here (no other element of ours has an id)
-    r_id, image = part.get_or_add_image(stream)
-    cx, cy = image.scaled_dimensions(width, None)
-    shape_id = st.next_shape_id
-    st.next_shape_id += 1
-    run._r.add_drawing(CT_Inline.new_pic_inline(shape_id, r_id, image.filename, cx, cy))
-    return p
+    for run, chart in st.pictures:
+        r_id, image = part.get_or_add_image(io.BytesIO(charts.to_png(chart)))
+        cx, cy = image.scaled_dimensions(Inches(6.2), None)
+        shape_id = st.next_shape_id
+        st.next_shape_id += 1
+        run._r.add_drawing(CT_Inline.new_pic_inline(shape_id, r_id, image.filename, cx, cy))
+    st.pictures = []
 
 
 _W = "{http://schemas.openxmlformats.org/wordprocessingml/2006/main}"
@@ -573,8 +575,17 @@ def _add_block(doc, block) -> None:
             cell.add_paragraph(_t(line))
         doc.add_paragraph().paragraph_format.space_after = Pt(2)
     elif isinstance(block, Figure):
-        png = charts.to_png(block.chart)
-        _add_picture(doc, io.BytesIO(png), Inches(6.2)).paragraph_format.keep_with_next = True
+        st = _state(doc)
+        if st.reference:
+            doc.add_picture(io.BytesIO(charts.to_png(block.chart)), width=Inches(6.2))
+            doc.paragraphs[-1].paragraph_format.keep_with_next = True
+        else:
+            # the picture's paragraph and run now, the picture itself once the body is written
+            # (_place_pictures), so a chart drawn by the helper process (charts.ChartHelper) is
+            # waited for only then
+            p = doc.add_paragraph()
+            st.pictures.append((p.add_run(), block.chart))
+            p.paragraph_format.keep_with_next = True
         _para(doc, _t(block.caption), "Caption")
     else:
         raise TypeError(f"unknown block {type(block).__name__}")
@@ -630,6 +641,7 @@ def render(doc_model: Document, *, reference: bool = False) -> bytes:
     doc.add_paragraph(_t(doc_model.subtitle), style="Subtitle")
     for section in doc_model.sections:
         _add_section(doc, section, 1)
+    _place_pictures(doc)
 
     footer = sec.footer
     if not reference:
