@@ -5,6 +5,13 @@ Score (0..100) = 100 x sum(normalised weight x component value); a component wit
 score; ties by conservative validity, then key). Ineligible instruments keep their score for
 information but get no rank and a p_best of 0.
 
+Which instruments pass every gate is found first, by one quick test of the six gates'
+conditions (gates.passes_all_gates); only those are appraised at once. The evidence of the
+others (score, gates with their reasons, components, warnings) is written when any of it is
+first read, for all of them together and with the same calls, so the figures and words are the
+same whenever they are read; a ranking read only for its eligible instruments (the top choice,
+the draws, the alternatives) writes nothing about the rest.
+
 Robustness (Monte Carlo, vectorised with numpy, deterministic for a given seed):
 - weights: each draw takes weights from a Dirichlet distribution centred on the normalised
   policy weights, with concentration CONCENTRATION (alpha_j = 50 x w_j; weights the policy
