@@ -278,3 +278,87 @@ def test_markdown_and_html_tables_match_the_plain_definition(rows):
     plain_html = "".join("<tr>" + "".join(f"{o}{html.escape(c)}</td>" for o, c in zip(opens, row)) + "</tr>"
                          for row in rows)
     assert render_html._table(table).split("<tbody>", 1)[1] == plain_html + "</tbody></table>"
+
+
+# The charts of the first HTML or Word memo in a process may be drawn by a helper process
+# (charts.ChartHelper, forked as the memo starts: it imports matplotlib while the records are
+# read). The helper runs the same library with the same settings, so the files must be the
+# same bytes as with every chart drawn in the memo's own process (VETTING_MEMO_CHART_HELPER=0),
+# whatever happens to the helper. Run in fresh interpreters, as `vetting memo` runs.
+_HELPER_PROCESS = """
+import datetime as dt, io, os, sys, zipfile
+from vetting.memo import charts
+from vetting.memo.api import make_memo
+from vetting.records.store import Store
+fmt, out, trouble = sys.argv[3], sys.argv[2], sys.argv[4]
+if trouble == "dies":  # the helper ends before drawing anything
+    charts._helper_main = lambda *args: os._exit(3)
+elif trouble == "fails":  # every chart fails in the helper (drawn again here)
+    def failing(kind, chart, dpi):
+        raise RuntimeError("no drawing in the helper")
+    charts._draw_one = failing
+started = []
+start = charts.ChartHelper.start.__func__
+charts.ChartHelper.start = classmethod(lambda cls: started.append(start(cls)) or started[-1])
+with Store.open(sys.argv[1], user="eq-tester") as store:
+    key = sorted(store.job_keys())[0]
+    make_memo(store, key, fmt=fmt, out=out, as_of=dt.date(2026, 11, 1), draws=100,
+              now=dt.datetime(2026, 11, 1, 12, 0, tzinfo=dt.timezone.utc))
+print(started[0] is not None, "matplotlib" in sys.modules)
+"""
+
+
+@pytest.fixture(scope="module")
+def unranked_db(tmp_path_factory):
+    """A database file no memo has been made from (a memo records the job's first ranking,
+    which the next memo prints): each memo below is made from a copy of it."""
+    path = tmp_path_factory.mktemp("helper") / "unranked.db"
+    with Store.open(f"sqlite:///{path}", user="eq-tester") as store:
+        store.import_catalogue(generate_catalogue(60, seed=11), source="synthetic")
+    return path
+
+
+def _memo_in_fresh_process(db, out, fmt, helper: str, trouble: str = "none") -> list[str]:
+    import os
+    import shutil
+    import subprocess
+    import sys
+
+    copy = out.with_suffix(".db")
+    shutil.copy(db, copy)
+    env = dict(os.environ, VETTING_MEMO_CHART_HELPER=helper)
+    done = subprocess.run([sys.executable, "-c", _HELPER_PROCESS, f"sqlite:///{copy}", str(out), fmt, trouble],
+                          capture_output=True, text=True, timeout=300, env=env)
+    assert done.returncode == 0, done.stderr
+    return done.stdout.split()
+
+
+def _memo_parts(path, fmt) -> dict[str, bytes]:
+    data = path.read_bytes()
+    return _parts(data) if fmt == "docx" else {"memo": data}
+
+
+@pytest.mark.parametrize("fmt", ["html", "docx"])
+def test_charts_drawn_by_the_helper_process_are_the_same_bytes(unranked_db, tmp_path, fmt):
+    here, there = tmp_path / f"here.{fmt}", tmp_path / f"there.{fmt}"
+    # no helper: matplotlib is loaded in the memo's process to draw the charts
+    assert _memo_in_fresh_process(unranked_db, here, fmt, "0") == ["False", "True"]
+    # a helper drew every chart: the memo's process never loaded matplotlib at all
+    assert _memo_in_fresh_process(unranked_db, there, fmt, "1") == ["True", "False"]
+    plain, helped = _memo_parts(here, fmt), _memo_parts(there, fmt)
+    assert sorted(plain) == sorted(helped)
+    if fmt == "docx":
+        assert {"word/media/image1.png", "word/media/image2.png"} <= set(plain)  # both charts
+    else:
+        assert plain["memo"].count(b"<svg") == 2
+    for name in plain:
+        assert helped[name] == plain[name], name
+
+
+@pytest.mark.parametrize("trouble", ["dies", "fails"])
+def test_a_helper_that_dies_or_fails_leaves_the_charts_to_the_memo(unranked_db, tmp_path, trouble):
+    here, there = tmp_path / "here.docx", tmp_path / "there.docx"
+    _memo_in_fresh_process(unranked_db, here, "docx", "0")
+    # the helper was started, and the memo drew the charts itself after all
+    assert _memo_in_fresh_process(unranked_db, there, "docx", "1", trouble) == ["True", "True"]
+    assert _memo_parts(there, "docx") == _memo_parts(here, "docx")

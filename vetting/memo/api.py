@@ -19,9 +19,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from vetting.memo import fingerprint as fpm
-from vetting.memo import render_docx, render_html, render_md
+from vetting.memo import charts, render_docx, render_html, render_md
 from vetting.memo.build import MemoData, MemoError, gather, layout
-from vetting.memo.document import Document
+from vetting.memo.document import Document, Figure
 from vetting.records.errors import NotFound
 from vetting.records.gcpause import gc_pause
 
@@ -159,46 +159,84 @@ def make_memo(
     # frames linked back to the memo's frames, so charts.py imports it on a thread of its own
     # (tests/memo/test_equivalence.py checks, in a fresh interpreter, that the data goes
     # without any collection).
-    with gc_pause():
-        data = gather(
-            store, job_key, choose=choose, override=override, by=by, status=status,
-            as_of=as_of, now=now, draws=draws, seed=seed,
-        )
-        doc = layout(data)
+    #
+    # The charts of an HTML or Word memo may be drawn by a helper process started here, which
+    # imports matplotlib while the records are read (charts.ChartHelper: the same bytes).
+    helper = charts.ChartHelper.start() if fmt in _CHARTED else None
+    try:
+        with gc_pause():
+            result = _make(store, job_key, fmt, target, helper, choose=choose, override=override, by=by,
+                           final=final, status=status, as_of=as_of, now=now, draws=draws, seed=seed, keep=keep)
+    finally:
+        if helper is not None:
+            helper.close()
+    return result
+
+
+#: The formats with charts, and how each draws them (to_png's dpi, or None for SVG).
+_CHARTED = {"html": ("svg", None), "docx": ("png", 200)}
+
+
+def figures(doc: Document) -> list:
+    """The document's charts in reading order."""
+    found = []
+
+    def walk(sections) -> None:
+        for section in sections:
+            found.extend(b.chart for b in section.blocks if isinstance(b, Figure))
+            walk(section.subsections)
+
+    walk(doc.sections)
+    return found
+
+
+def _make(store, job_key, fmt, target, helper, *, choose, override, by, final, status, as_of, now, draws, seed,
+          keep) -> MemoResult:
+    """make_memo's work, inside its pause of the collector."""
+    data = gather(
+        store, job_key, choose=choose, override=override, by=by, status=status,
+        as_of=as_of, now=now, draws=draws, seed=seed,
+    )
+    doc = layout(data)
+    if helper is None:
         payload = render(doc, fmt)
-        pending = _PendingFile(target, payload)
-        del payload
-        decision_id = None
-        try:
-            if final:
-                decision_id = store.record_decision(
-                    job_key,
-                    data.chosen.instrument if data.chosen else None,
-                    status="final",
-                    by=data.by or store.user,
-                    fingerprint=data.fingerprint.value,
-                    override_reason=data.override_reason,
-                    memo_path=str(target),
-                    memo_format=fmt,
-                )
-        except BaseException:
-            pending.discard()
-            raise
-        pending.commit()
-        if data.job.first_ranked_at is None:
-            store.mark_ranked(job_key)
-        result = MemoResult(
-            path=target,
-            fmt=fmt,
-            fingerprint=data.fingerprint.value,
-            status=status,
-            decision=data.chosen.instrument if data.chosen else None,
-            decision_id=decision_id,
-            override=data.override_reason is not None,
-            data=data if keep else None,
-            document=doc if keep else None,
-        )
-        del data, doc
+    else:
+        kind, dpi = _CHARTED[fmt]
+        with helper.drawing([(chart, kind, dpi) for chart in figures(doc)]):
+            payload = render(doc, fmt)
+    pending = _PendingFile(target, payload)
+    del payload
+    decision_id = None
+    try:
+        if final:
+            decision_id = store.record_decision(
+                job_key,
+                data.chosen.instrument if data.chosen else None,
+                status="final",
+                by=data.by or store.user,
+                fingerprint=data.fingerprint.value,
+                override_reason=data.override_reason,
+                memo_path=str(target),
+                memo_format=fmt,
+            )
+    except BaseException:
+        pending.discard()
+        raise
+    pending.commit()
+    if data.job.first_ranked_at is None:
+        store.mark_ranked(job_key)
+    result = MemoResult(
+        path=target,
+        fmt=fmt,
+        fingerprint=data.fingerprint.value,
+        status=status,
+        decision=data.chosen.instrument if data.chosen else None,
+        decision_id=decision_id,
+        override=data.override_reason is not None,
+        data=data if keep else None,
+        document=doc if keep else None,
+    )
+    del data, doc
     return result
 
 

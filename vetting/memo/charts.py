@@ -8,8 +8,11 @@ thing computed here is the shape of the normal curve drawn under the norm group'
 
 from __future__ import annotations
 
+import contextvars
 import io
+import os
 import re
+import sys
 import threading
 
 from vetting.memo.document import Chart, DistributionChart, SweepChart
@@ -165,6 +168,17 @@ def to_svg(chart: Chart, id_prefix: str = "") -> str:
 
     id_prefix is put before every id (and every reference to one), so that several charts in
     one HTML page do not share ids."""
+    text = _drawn(chart, "svg", None)
+    if text is None:
+        text = _svg(chart)
+    if id_prefix:
+        text = text.replace(' id="', f' id="{id_prefix}').replace('href="#', f'href="#{id_prefix}')
+        text = text.replace("url(#", f"url(#{id_prefix}")
+    return text
+
+
+def _svg(chart: Chart) -> str:
+    """to_svg(chart) without an id prefix."""
     buf = io.StringIO()
     _save(chart, buf, format="svg", metadata={"Date": None, "Creator": None})
     text = buf.getvalue()
@@ -174,16 +188,202 @@ def to_svg(chart: Chart, id_prefix: str = "") -> str:
     # inline in HTML the parser puts <svg> in the SVG namespace and knows xlink:href by itself
     # (WHATWG HTML, "Parsing main inforeign"), so the namespace URLs are not needed: the file
     # then names no outside address at all
-    text = text.replace(' xmlns="http://www.w3.org/2000/svg"', "", 1).replace(
+    return text.replace(' xmlns="http://www.w3.org/2000/svg"', "", 1).replace(
         ' xmlns:xlink="http://www.w3.org/1999/xlink"', "", 1
     )
-    if id_prefix:
-        text = text.replace(' id="', f' id="{id_prefix}').replace('href="#', f'href="#{id_prefix}')
-        text = text.replace("url(#", f"url(#{id_prefix}")
-    return text
 
 
 def to_png(chart: Chart, dpi: int = 200) -> bytes:
+    data = _drawn(chart, "png", dpi)
+    return data if data is not None else _png(chart, dpi)
+
+
+def _png(chart: Chart, dpi: int) -> bytes:
     buf = io.BytesIO()
     _save(chart, buf, format="png", dpi=dpi, metadata={"Software": None})
     return buf.getvalue()
+
+
+def _draw_one(kind: str, chart: Chart, dpi: int | None):
+    return _svg(chart) if kind == "svg" else _png(chart, dpi)
+
+
+# ---------------------------------------------------------------------------------------------
+# drawing in a helper process
+# ---------------------------------------------------------------------------------------------
+#
+# The first memo in a process pays for importing matplotlib (about 0.2-0.3 s on the 2-core
+# machine of docs/performance.md) and for drawing the charts (about 0.2 s), all of it Python
+# holding the interpreter lock: a thread started early to import matplotlib while the records
+# are read was measured and gained nothing (the reads are Python too). A process does run
+# beside the memo: `ChartHelper.start()` forks one as the memo begins; it imports matplotlib
+# while the memo reads its records and ranks them, then draws the charts it is sent, with the
+# same library and the same settings, so the bytes are the same (tests pin them against
+# drawing here). It is used only where forking is safe and pays: on Linux, in a process with a
+# single thread (a fork copies only the calling thread; the terminal interface runs several)
+# that has not loaded matplotlib yet. Anything going wrong in the helper (it dies, a chart
+# fails there, it stops answering) leaves the chart to be drawn here, as without a helper.
+
+#: VETTING_MEMO_CHART_HELPER=0: every chart is drawn in the memo's own process; =1: a helper
+#: wherever it is safe, even with no processor free; unset: only when a processor is free.
+HELPER_ENV = "VETTING_MEMO_CHART_HELPER"
+#: Seconds to wait for one chart from the helper before drawing it here instead.
+HELPER_PATIENCE = 60.0
+
+_DRAWN: contextvars.ContextVar = contextvars.ContextVar("vetting_memo_drawn_charts", default=None)
+
+
+def _drawn(chart: Chart, kind: str, dpi: int | None):
+    """The chart as the helper drew it, when a helper's results are in use and it has it."""
+    helper = _DRAWN.get()
+    return None if helper is None else helper.result(chart, kind, dpi)
+
+
+def helper_allowed() -> bool:
+    """Whether the memo starting now should have its charts drawn by a helper process."""
+    setting = os.environ.get(HELPER_ENV, "")
+    if setting == "0" or not sys.platform.startswith("linux"):
+        return False
+    if "matplotlib" in sys.modules or threading.active_count() != 1:
+        return False
+    return setting == "1" or _processor_free()
+
+
+def _processor_free() -> bool:
+    """Whether a processor is free for the helper at this moment: fewer tasks running than
+    processors this process may use (the kernel's count of runnable tasks, the fourth field of
+    /proc/loadavg, counts this process too). With none free the helper would only take turns
+    with the memo, and the fork and the memory pages it makes both processes copy would be paid
+    for nothing (measured: about 0.05-0.1 s slower at 1,000 instruments)."""
+    try:
+        with open("/proc/loadavg", encoding="ascii") as fh:
+            running = int(fh.read().split()[3].split("/")[0])
+        usable = len(os.sched_getaffinity(0))
+    except (OSError, ValueError, IndexError, AttributeError):
+        return False
+    return running < usable
+
+
+def _helper_main(requests, results, memo_ends) -> None:
+    """The helper process: import matplotlib, then draw what is asked until the memo hangs up."""
+    global _loaded
+    import gc
+
+    # no collection here: it would walk, and so copy page by page, all the memo process's
+    # objects this process shares with it; the process is short-lived
+    gc.disable()
+    for conn in memo_ends:  # the memo's ends of the pipes, copied by the fork: else no end of input
+        conn.close()
+    try:
+        _import_matplotlib()  # a process of its own: no caller frames to keep alive
+        _loaded = True
+        while True:
+            try:
+                batch = requests.recv()
+            except EOFError:
+                return
+            for index, kind, chart, dpi in batch:
+                try:
+                    data = _draw_one(kind, chart, dpi)
+                except Exception:  # drawn again in the memo's process, which then raises it
+                    data = None
+                results.send((index, data))
+    except BaseException:  # the memo hung up, was interrupted, or draws for itself: nothing to add
+        return
+
+
+class ChartHelper:
+    """A forked process drawing the memo's charts (see above). Use:
+
+        helper = ChartHelper.start()   # None where a helper is not used
+        ...
+        with helper.drawing([(chart, "png", 200), ...]):
+            payload = render(doc, fmt)  # to_png / to_svg take the helper's drawings
+        helper.close()
+    """
+
+    def __init__(self, process, requests, results) -> None:
+        self.process, self.requests, self.results = process, requests, results
+        self.keys: dict = {}  # (id(chart), kind, dpi) -> index of the request
+        self.got: dict = {}  # index -> bytes/str, or None where the helper could not draw it
+        self.broken = False
+
+    @classmethod
+    def start(cls) -> ChartHelper | None:
+        if not helper_allowed():
+            return None
+        try:
+            import multiprocessing
+
+            ctx = multiprocessing.get_context("fork")
+            req_read, req_write = ctx.Pipe(duplex=False)
+            res_read, res_write = ctx.Pipe(duplex=False)
+            process = ctx.Process(target=_helper_main, args=(req_read, res_write, (req_write, res_read)),
+                                  name="vetting-memo-charts", daemon=True)
+            process.start()
+        except (OSError, ValueError):
+            return None
+        req_read.close()
+        res_write.close()
+        return cls(process, req_write, res_read)
+
+    def submit(self, wanted) -> None:
+        """Ask for the charts, each given as (chart, kind, dpi): kind "png" or "svg" (dpi None)."""
+        batch = []
+        for chart, kind, dpi in wanted:
+            key = (id(chart), kind, dpi)
+            if key in self.keys:
+                continue
+            self.keys[key] = len(self.keys)
+            batch.append((self.keys[key], kind, chart, dpi))
+        if batch and not self.broken:
+            try:
+                self.requests.send(batch)
+            except (OSError, ValueError):
+                self.broken = True
+
+    def drawing(self, wanted):
+        """A context in which to_png/to_svg take these charts from the helper."""
+        import contextlib
+
+        self.submit(wanted)
+
+        @contextlib.contextmanager
+        def using():
+            token = _DRAWN.set(self)
+            try:
+                yield self
+            finally:
+                _DRAWN.reset(token)
+
+        return using()
+
+    def result(self, chart: Chart, kind: str, dpi: int | None):
+        index = self.keys.get((id(chart), kind, dpi))
+        if index is None:
+            return None
+        while index not in self.got and not self.broken:
+            try:
+                if not self.results.poll(HELPER_PATIENCE):
+                    self.broken = True
+                    break
+                got_index, data = self.results.recv()
+            except (EOFError, OSError, ValueError):
+                self.broken = True
+                break
+            self.got[got_index] = data
+        return self.got.get(index)
+
+    def close(self) -> None:
+        """Hang up; the helper ends (ended at once if it is still busy)."""
+        for conn in (self.requests, self.results):
+            try:
+                conn.close()
+            except OSError:
+                pass
+        process = self.process
+        if process.is_alive():
+            process.join(0.05)
+        if process.is_alive():
+            process.terminate()
+            process.join()
