@@ -200,3 +200,25 @@ def test_two_threads_reading_at_once_see_one_appraisal():
     for t in threads:
         t.join()
     assert seen[0] == seen[1] and len(seen[0]) == len(failing)
+
+
+def test_a_ranking_dropped_unread_is_freed_at_once_and_one_result_kept_still_reads():
+    import gc
+    import weakref
+
+    cat = generate_catalogue(200, seed=3)
+    job = cat.jobs[0]
+    eager = {r.instrument: r for r in _eager_results(job, cat.instruments)}
+    was = gc.isenabled()
+    gc.disable()  # freed by reference counting alone: no reference cycle
+    try:
+        ranking = rk.rank(job, cat.instruments, draws=20, seed=0, as_of=AS_OF)
+        failing = [r for r in ranking.results if not r.eligible]
+        probe = weakref.ref(failing[0])
+        kept = failing[-1]
+        del ranking, failing
+        assert probe() is None
+        assert kept == eager[kept.instrument]  # the one kept is written when read
+    finally:
+        if was:
+            gc.enable()

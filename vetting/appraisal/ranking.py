@@ -35,6 +35,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import threading
+import weakref
 
 import numpy as np
 
@@ -168,14 +169,15 @@ class _Pending:
     syntheses in one grouped call: per-instrument figures that do not depend on which other
     instruments are in the call). The ranking keeps its records until then; like every result
     of the engine it describes the records as they were given, so they should not be changed
-    while it is in use.
+    while it is in use. The appraisals are held by weak references: no reference cycle, so a
+    ranking dropped unread is freed at once (and an appraisal already dropped is not written).
     """
 
     __slots__ = ("job", "weights", "as_of", "ctx", "waiting", "lock")
 
     def __init__(self, job: Job, weights: dict[str, float], as_of: dt.date, ctx: comp.JobContext) -> None:
         self.job, self.weights, self.as_of, self.ctx = job, weights, as_of, ctx
-        self.waiting: list[tuple[_DeferredAppraisal, Instrument]] | None = []
+        self.waiting: list[tuple[weakref.ref, Instrument]] | None = []
         self.lock = threading.Lock()
 
     def add(self, instrument: Instrument) -> "_DeferredAppraisal":
@@ -187,7 +189,7 @@ class _Pending:
         a.p_best = 0.0
         a.publisher = instrument.publisher
         a._pending = self
-        self.waiting.append((a, instrument))
+        self.waiting.append((_weak(a), instrument))
         return a
 
     def fill(self) -> None:
@@ -196,11 +198,12 @@ class _Pending:
             if waiting is None:
                 return
             job, weights, as_of, ctx = self.job, self.weights, self.as_of, self.ctx
-            instruments = [ins for _, ins in waiting]
+            alive = [(target, ins) for ref, ins in waiting if (target := ref()) is not None]
+            instruments = [ins for _, ins in alive]
             with gc_pause():
                 ratios = expected_impact_ratios(job, instruments)
                 details = comp.validity_details(instruments, job.policy, ctx)
-                for (target, ins), ratio, detail in zip(waiting, ratios, details):
+                for (target, ins), ratio, detail in zip(alive, ratios, details):
                     done = appraise(job, ins, weights, as_of, ratio, detail=detail, ctx=ctx)
                     for name, (get, put) in _SLOTS.items():
                         try:
@@ -213,6 +216,7 @@ class _Pending:
 
 
 _new_deferred = object.__new__
+_weak = weakref.ref
 _SLOTS = {
     name: (InstrumentAppraisal.__dict__[name].__get__, InstrumentAppraisal.__dict__[name].__set__)
     for name in _DEFERRED_FIELDS
@@ -238,7 +242,7 @@ class _DeferredAppraisal(InstrumentAppraisal):
     any of them, for all such instruments of the ranking at once. Reads, compares, prints,
     copies and pickles as the InstrumentAppraisal it stands for."""
 
-    __slots__ = ("_pending",)
+    __slots__ = ("_pending", "__weakref__")
 
     def __eq__(self, other):
         if not isinstance(other, InstrumentAppraisal):
