@@ -297,6 +297,10 @@ elif trouble == "fails":  # every chart fails in the helper (drawn again here)
     def failing(kind, chart, dpi):
         raise RuntimeError("no drawing in the helper")
     charts._draw_one = failing
+elif trouble == "thread":  # another thread runs: a fork would copy only this one, so no helper
+    import threading
+    done = threading.Event()
+    threading.Thread(target=done.wait, daemon=True).start()
 started = []
 start = charts.ChartHelper.start.__func__
 charts.ChartHelper.start = classmethod(lambda cls: started.append(start(cls)) or started[-1])
@@ -361,4 +365,13 @@ def test_a_helper_that_dies_or_fails_leaves_the_charts_to_the_memo(unranked_db, 
     _memo_in_fresh_process(unranked_db, here, "docx", "0")
     # the helper was started, and the memo drew the charts itself after all
     assert _memo_in_fresh_process(unranked_db, there, "docx", "1", trouble) == ["True", "True"]
+    assert _memo_parts(there, "docx") == _memo_parts(here, "docx")
+
+
+def test_no_helper_is_forked_while_another_thread_runs(unranked_db, tmp_path):
+    # a fork copies only the calling thread (POSIX fork(); Python documentation, os.fork): a
+    # process running other threads (the terminal interface) draws its charts itself
+    here, there = tmp_path / "here.docx", tmp_path / "there.docx"
+    _memo_in_fresh_process(unranked_db, here, "docx", "0")
+    assert _memo_in_fresh_process(unranked_db, there, "docx", "1", "thread") == ["False", "True"]
     assert _memo_parts(there, "docx") == _memo_parts(here, "docx")
