@@ -282,12 +282,16 @@ def _helper_main(requests, results, memo_ends) -> None:
                 batch = requests.recv()
             except EOFError:
                 return
+            drawn = []
             for index, kind, chart, dpi in batch:
                 try:
-                    data = _draw_one(kind, chart, dpi)
+                    drawn.append((index, _draw_one(kind, chart, dpi)))
                 except Exception:  # drawn again in the memo's process, which then raises it
-                    data = None
-                results.send((index, data))
+                    drawn.append((index, None))
+            # sent once all are drawn: a picture fills the pipe, and the memo reads the first
+            # only when it needs it, so sending each as drawn would hold up the next drawing
+            for answer in drawn:
+                results.send(answer)
     except BaseException:  # the memo hung up, was interrupted, or draws for itself: nothing to add
         return
 
@@ -339,7 +343,7 @@ class ChartHelper:
         if batch and not self.broken:
             try:
                 self.requests.send(batch)
-            except (OSError, ValueError):
+            except Exception:  # the helper is gone, or a chart cannot be pickled: drawn here
                 self.broken = True
 
     def drawing(self, wanted):
@@ -368,7 +372,7 @@ class ChartHelper:
                     self.broken = True
                     break
                 got_index, data = self.results.recv()
-            except (EOFError, OSError, ValueError):
+            except Exception:  # the helper ended, or its answer cannot be read: drawn here
                 self.broken = True
                 break
             self.got[got_index] = data
