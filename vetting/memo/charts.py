@@ -219,13 +219,14 @@ def _draw_one(kind: str, chart: Chart, dpi: int | None):
 # beside the memo: `ChartHelper.start()` forks one as the memo begins; it imports matplotlib
 # while the memo reads its records and ranks them, then draws the charts it is sent, with the
 # same library and the same settings, so the bytes are the same (tests pin them against
-# drawing here). It is used only where forking is safe and pays: on Linux, in a process with a
-# single thread (a fork copies only the calling thread; the terminal interface runs several)
-# that has not loaded matplotlib yet. Anything going wrong in the helper (it dies, a chart
-# fails there, it stops answering) leaves the chart to be drawn here, as without a helper.
+# drawing here). It is used only where forking is safe and pays: on Linux, with two processors
+# or more, in a process with a single thread (a fork copies only the calling thread; the
+# terminal interface runs several) that has not loaded matplotlib yet. Anything going wrong in
+# the helper (it dies, a chart fails there, it stops answering) leaves the chart to be drawn
+# here, as without a helper.
 
 #: VETTING_MEMO_CHART_HELPER=0: every chart is drawn in the memo's own process; =1: a helper
-#: wherever it is safe, even with no processor free; unset: only when a processor is free.
+#: wherever it is safe, even with one processor; unset: where it is safe and pays.
 HELPER_ENV = "VETTING_MEMO_CHART_HELPER"
 #: Seconds to wait for one chart from the helper before drawing it here instead.
 HELPER_PATIENCE = 60.0
@@ -246,22 +247,20 @@ def helper_allowed() -> bool:
         return False
     if "matplotlib" in sys.modules or threading.active_count() != 1:
         return False
-    return setting == "1" or _processor_free()
+    return setting == "1" or _processors() >= 2
 
 
-def _processor_free() -> bool:
-    """Whether a processor is free for the helper at this moment: fewer tasks running than
-    processors this process may use (the kernel's count of runnable tasks, the fourth field of
-    /proc/loadavg, counts this process too). With none free the helper would only take turns
-    with the memo, and the fork and the memory pages it makes both processes copy would be paid
-    for nothing (measured: about 0.05-0.1 s slower at 1,000 instruments)."""
+def _processors() -> int:
+    """How many processors this process may run on. With one, the helper would only take turns
+    with the memo: the fork and the memory pages it makes both processes copy (about 0.1 s of
+    processor time at 1,000 instruments) would be paid for nothing. With two, it pays even
+    while another program keeps one of them busy (measured on the 2-core machine of
+    docs/performance.md at a load average of about 2: Word at 1,000 instruments 0.79 s without
+    the helper, 0.61 s with it, medians of six runs back to back)."""
     try:
-        with open("/proc/loadavg", encoding="ascii") as fh:
-            running = int(fh.read().split()[3].split("/")[0])
-        usable = len(os.sched_getaffinity(0))
-    except (OSError, ValueError, IndexError, AttributeError):
-        return False
-    return running < usable
+        return len(os.sched_getaffinity(0))
+    except (OSError, AttributeError):
+        return os.cpu_count() or 1
 
 
 def _helper_main(requests, results, memo_ends) -> None:
