@@ -366,3 +366,32 @@ async def test_down_then_enter_typed_at_once_opens_the_instrument(seeded_url, ap
         await settle(pilot)
         assert type(app.screen).__name__ == "InstrumentEditor"
         assert app.screen.key == "calm-index"
+
+
+async def test_typing_waits_for_a_pause_but_clearing_shows_every_row_at_once(seeded_url, app_for, settle):
+    """Keystrokes are gathered for DEBOUNCE_SECONDS before the catalogue is filtered (a burst
+    of typing filters once); clearing the filter has nothing to wait for and shows every row
+    straight away. The pause is made long here so that only the clearing can show rows."""
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press(*"calm")
+        await pilot.pause(0.3)
+        assert _titles(screen) == ["Calm Index Inventory"]
+        screen.DEBOUNCE_SECONDS = 30.0
+        await pilot.press("x")
+        await pilot.pause(0.1)
+        assert screen._filter_timer is not None  # waiting for more typing
+        assert _titles(screen) == ["Calm Index Inventory"]
+        await pilot.press("escape")
+        await pilot.pause(0.1)
+        assert screen._filter_timer is None
+        assert len(screen.shown) == 3 and len(_titles(screen)) == 3
+        # deleting the last character of a filter clears it the same way
+        await pilot.press("z")
+        await pilot.pause(0.1)
+        assert len(screen.shown) == 3  # "z" still waits
+        await pilot.press("backspace")
+        await pilot.pause(0.1)
+        assert screen._filter_timer is None and len(screen.shown) == 3

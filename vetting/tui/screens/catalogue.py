@@ -341,6 +341,11 @@ class CatalogueScreen(Screen):
     def _filter_changed(self, event: Input.Changed) -> None:
         if self._filter_timer is not None:
             self._filter_timer.stop()
+            self._filter_timer = None
+        if not event.value:
+            # cleared (Escape, or the last character deleted): no more typing to wait for
+            self._apply_filter()
+            return
         self._filter_timer = self.set_timer(self.DEBOUNCE_SECONDS, self._apply_filter)
 
     def _resort(self) -> None:
