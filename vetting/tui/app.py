@@ -270,6 +270,7 @@ class VettingApp(App[int]):
         self.call_from_thread(self._freeze)
 
     def _freeze(self) -> None:
+        self.prebuild_editors()
         if not self._heap_frozen:
             self._heap_frozen = True
             gc.freeze()
@@ -464,19 +465,60 @@ class VettingApp(App[int]):
         """Open the instrument editor on `key` (None: a new instrument)."""
         from vetting.tui.screens.instrument import InstrumentEditor
 
-        self._screen_closed = True
-        self.push_screen(InstrumentEditor(key))
+        self._open_editor(InstrumentEditor, key)
 
     def open_job(self, key: str | None) -> None:
         from vetting.tui.screens.job import JobEditor
 
+        self._open_editor(JobEditor, key)
+
+    def _open_editor(self, cls: type, key: str | None) -> None:
+        """Show an editor of kind `cls` on `key`. One editor of each kind is kept once built
+        (installed, so closing it does not take it apart) and refilled for the next record:
+        building a form of dozens of fields took longer than a key should."""
         self._screen_closed = True
-        self.push_screen(JobEditor(key))
+        name = _editor_name(cls)
+        if self.is_screen_installed(name):
+            editor = self.get_screen(name)
+            if editor.can_reuse():  # type: ignore[attr-defined]
+                editor.reuse(key, partial(self.push_screen, editor))  # type: ignore[attr-defined]
+            else:  # this kind is open already, lower down, or still being built: another one
+                self.push_screen(cls(key))
+            return
+        editor = cls(key)
+        self.install_screen(editor, name)
+        self.push_screen(editor)
+
+    def prebuild_editors(self) -> None:
+        """Build the instrument and job editors' forms ahead of use, unseen, while the user
+        reads the catalogue (called once, at rest, after the warm-up imports): the first
+        record opened then only refills them (see `_open_editor`). Each editor is pushed and
+        popped in the same turn, so it is never drawn and takes no key; it builds its form,
+        for a new record, in its own turns afterwards."""
+        if not self.at_rest():
+            return  # something else is open: the editors are built when first used
+        from vetting.tui.screens.instrument import InstrumentEditor
+        from vetting.tui.screens.job import JobEditor
+
+        for cls in (InstrumentEditor, JobEditor):
+            name = _editor_name(cls)
+            if self.is_screen_installed(name):
+                continue
+            editor = cls(None)
+            editor.unseen = True
+            self.install_screen(editor, name)
+            self.push_screen(editor)
+            self.pop_screen()
 
     # -- looks -------------------------------------------------------------------------------
 
     def action_flip_theme(self) -> None:
         self.theme = LIGHT_THEME if self.theme == DARK_THEME else DARK_THEME
+
+
+def _editor_name(cls: type) -> str:
+    """The name the kept editor of kind `cls` is installed under."""
+    return f"editor:{cls.__name__}"
 
 
 def _modal_types() -> tuple[type, ...]:

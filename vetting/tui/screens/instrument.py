@@ -80,8 +80,8 @@ class InstrumentEditor(EditorScreen):
     CSS_PATH = ["../widgets/form.tcss", "../widgets/editor.tcss"]
     kind_label = "Instrument"
 
-    def __init__(self, key: str | None) -> None:
-        super().__init__(key)
+    def begin(self, key: str | None) -> None:
+        super().begin(key)
         self.known_attributes: set[str] = set()
         self.record_label = f"instrument {key}" if key else "the new instrument"
 

@@ -189,8 +189,8 @@ class JobEditor(EditorScreen):
                 tooltip="Freeze the current policy version before looking at results"),
     ]
 
-    def __init__(self, key: str | None) -> None:
-        super().__init__(key)
+    def begin(self, key: str | None) -> None:
+        super().begin(key)
         self.record_label = f"job {key}" if key else "the new job"
         self.known_attributes: set[str] = set()
         self.versions: list[Policy] = []

@@ -1,12 +1,19 @@
 """What the instrument and job editors share: loading in a worker, sections, add/remove
-entries, checking before saving, unsaved-change tracking and the result banner."""
+entries, checking before saving, unsaved-change tracking and the result banner.
+
+An editor's form is built once and used again: the app keeps one editor of each kind
+(`VettingApp.open_instrument`, `open_job`), and opening the next record refills the fields of
+its first section in place (`reuse`) instead of building them anew; the other sections are
+emptied when the editor closes and built again, from the new record, when first shown."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from textual import work
 from textual.app import ComposeResult
+from textual.widget import AwaitMount
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.screen import Screen
@@ -26,6 +33,8 @@ class EditorScreen(Screen):
     AUTO_FOCUS = None
     #: build a section's fields only when it is first shown (keeps opening fast)
     LAZY = True
+    #: a reused editor waiting for its record longer than this is shown with "loading…"
+    SHOW_LOADING_AFTER = 0.15
 
     BINDINGS = [
         Binding("f9", "save", "Save", id="editor.save", tooltip="Check every field and save"),
@@ -46,13 +55,48 @@ class EditorScreen(Screen):
 
     def __init__(self, key: str | None) -> None:
         super().__init__()
+        self._builders: dict[str, Any] = {}
+        #: counts the records opened in this editor (a late read of an earlier one is dropped)
+        self._opening = 0
+        #: shows this reused editor once its record is in the form (None: shown already)
+        self._pending_show: Callable[[], None] | None = None
+        #: built ahead of use, not shown (VettingApp.prebuild_editors): its first section only
+        self.unseen = False
+        self.begin(key)
+
+    def begin(self, key: str | None) -> None:
+        """Start on the record `key` (None: a new one); subclasses reset their own state too."""
         self.key = key
         self.original: Any = None
         #: the form as loaded, per built section (sections are built when first shown)
         self._initial_by_pane: dict[str, tuple] = {}
-        self._builders: dict[str, Any] = {}
         self.ready = False
         self.saving = False
+
+    def reuse(self, key: str | None, show: Callable[[], object]) -> None:
+        """Open the record `key` in this editor, already built for an earlier record and not
+        shown now. The record is read first and the form refilled before `show` is called (it
+        shows this screen), so the first paint holds the new record; a read slower than
+        SHOW_LOADING_AFTER shows the screen with "loading…" until it is done. Should the user
+        go elsewhere before then, the editor is not shown."""
+        self.begin(key)
+        self.unseen = False
+        self._opening += 1
+        opening = self._opening
+        opener = self.app.screen
+        self.query_one("#heading", Static).update(self._heading())
+        self.banner("")
+        self._show_loading(True)
+
+        def show_now() -> None:
+            if self._pending_show is not None and opening == self._opening:
+                self._pending_show = None
+                if self.app.screen is opener:
+                    show()
+
+        self._pending_show = show_now
+        self.set_timer(self.SHOW_LOADING_AFTER, show_now)
+        self._load(opening)
 
     # -- layout ------------------------------------------------------------------------------
 
@@ -60,7 +104,7 @@ class EditorScreen(Screen):
         yield NavBar(self.nav_place)
         yield Static(self._heading(), id="heading", classes="title-bar", markup=False)
         yield Static("", id="banner", classes="form-banner", markup=False)
-        yield Vertical(Static("loading…", classes="hint"), id="body")
+        yield Vertical(Static("loading…", id="loading", classes="hint"), id="body")
         # the key line comes with the form (_show_record): drawn while the record loads, it was
         # drawn again, in another state or order, as soon as the form arrived
 
@@ -81,24 +125,49 @@ class EditorScreen(Screen):
         raise NotImplementedError
 
     def on_mount(self) -> None:
-        self._load()
+        self._load(self._opening)
 
     @work(thread=True, exclusive=True, group="editor-load")
-    def _load(self) -> None:
+    def _load(self, opening: int) -> None:
         try:
             record = self.load_record()
         except Exception as exc:
-            self.app.call_from_thread(self._load_failed, exc)
+            self.app.call_from_thread(self._loaded, opening, None, exc)
             return
-        self.app.call_from_thread(self._show_record, record)
+        self.app.call_from_thread(self._loaded, opening, record, None)
+
+    async def _loaded(self, opening: int, record: Any, failure: Exception | None) -> None:
+        if opening != self._opening:
+            return  # another record was opened since this one was asked for
+        if failure is not None:
+            self._load_failed(failure)
+        else:
+            await self._show_record(record)
+        if self._pending_show is not None:
+            self._pending_show()  # a reused editor: shown now, its record in place
 
     def _load_failed(self, exc: Exception) -> None:
-        self.mount(Footer())
+        self._mount_footer()
         self.banner(f"✗ Could not open {self.record_label}: {exc}", error=True)
-        self.query_one("#body").remove_children()
+        self.query_one("#loading").display = False
+        for tabs in self.query("#sections"):
+            tabs.display = False
+
+    def _mount_footer(self) -> AwaitMount | None:
+        if self.query(Footer):
+            return None
+        return self.mount(Footer())
+
+    def _show_loading(self, loading: bool) -> None:
+        self.query_one("#loading").display = loading
+        for tabs in self.query("#sections"):
+            tabs.display = not loading
 
     async def _show_record(self, record: Any) -> None:
         self.original = record
+        if self.query("#sections"):
+            await self._refill()
+            return
         body = self.query_one("#body", Vertical)
         # Every section's tab and (empty) pane, and the first section's fields, are put together
         # first and mounted at once: one layout pass instead of one per section. A section not
@@ -106,7 +175,7 @@ class EditorScreen(Screen):
         tabs = TabbedContent(id="sections")
         self._builders = {}
         built: list[str] = []
-        lazy = self.lazy()
+        lazy = self.lazy() or self.unseen
         for index, (pane_id, title, builder) in enumerate(self.sections()):
             self._builders[pane_id] = builder
             if index == 0 or not lazy:
@@ -117,16 +186,110 @@ class EditorScreen(Screen):
                 tabs.compose_add_child(TabPane(title, id=pane_id))
         # no layout or paint of the half-mounted form while it is put in place
         with self.app.batch_update():
-            await body.remove_children()
+            self.query_one("#loading").display = False
             await body.mount(tabs)
             self.ready = True
             # the cursor goes to the first field before the form is first painted (focusing
             # after that paint cost a second layout and paint), then the key line is built
             # for the form as it will be used
             self._after_show()
-            await self.mount(Footer())
+            footer = self._mount_footer()
+            if footer is not None:
+                await footer
         for pane_id in built:
             self._remember(pane_id)
+        if self.unseen:
+            await self._park()
+
+    async def _refill(self) -> None:
+        """Show the record just read in the form built for an earlier one: the first section's
+        fields take the new values in place (built anew only if its shape differs, e.g. a
+        list); the other sections were emptied when the editor closed and are built again
+        when first shown (or now, when this record builds every section at once)."""
+        tabs = self.query_one("#sections", TabbedContent)
+        sections = self.sections()
+        self._builders = {pane_id: builder for pane_id, _, builder in sections}
+        first = sections[0][0]
+        built: list[str] = [first]
+        with self.app.batch_update():
+            await self._empty_sections(keep=first)
+            pane = tabs.get_pane(first)
+            self._initial_by_pane[first] = ()  # building
+            if not self._refill_pane(pane, self._builders[first]()):
+                await pane.remove_children()
+                await pane.mount(self._section(self._builders[first]()))
+            if not self.lazy():
+                for pane_id in list(self._builders)[1:]:
+                    await self.build_pane(pane_id)
+                    built.append(pane_id)
+            tabs.active = first
+            self._show_loading(False)
+            self.ready = True
+            self._after_show()
+        for pane_id in built:
+            self._remember(pane_id)
+
+    @staticmethod
+    def _refill_pane(pane: TabPane, fresh: list[Any]) -> bool:
+        """Give the section's widgets the contents of `fresh` (the section built for the new
+        record, not mounted) when both have the same shape: notes and single-record blocks of
+        the same fields. Returns False (nothing changed) otherwise."""
+        scrolls = list(pane.query_children(VerticalScroll))
+        if len(scrolls) != 1:
+            return False
+        old = list(scrolls[0].children)
+        if len(old) != len(fresh):
+            return False
+        for have, new in zip(old, fresh):
+            if type(have) is not type(new):
+                return False
+            if isinstance(new, RecordBlock):
+                if not have.same_shape(new):
+                    return False
+            elif type(new) is not Static:
+                return False
+        for have, new in zip(old, fresh):
+            if isinstance(new, RecordBlock):
+                have.refill(new.texts, locked=new.locked)
+            else:
+                if have.content != new.content:
+                    have.update(new.content)
+        scrolls[0].scroll_home(animate=False)
+        return True
+
+    async def _empty_sections(self, keep: str) -> None:
+        """Drop the fields of every built section but `keep` (built again when first shown)."""
+        tabs = self.query_one("#sections", TabbedContent)
+        for pane in tabs.query(TabPane):
+            if pane.id != keep and pane.children:
+                await pane.remove_children()
+
+    def can_reuse(self) -> bool:
+        """Whether this editor can open another record: built (its frame at least) and not
+        open now."""
+        return bool(self.query("#heading")) and self not in self.app.screen_stack
+
+    async def on_screen_suspend(self) -> None:
+        # closed (not just covered by a question or the help): make ready for the next record
+        if self not in self.app.screen_stack:
+            await self._park()
+
+    async def _park(self) -> None:
+        """Put the form in the state the next record opens in, now, while nothing of it is
+        shown: the sections other than the first emptied (built again from the next record),
+        the first section's tab active, the cursor in its first field and the key line drawn
+        for it; so opening the next record moves no tab underline and rebuilds no key line."""
+        if not self.query("#sections"):
+            return
+        tabs = self.query_one("#sections", TabbedContent)
+        first = tabs.query(TabPane).first().id
+        if not first:
+            return
+        await self._empty_sections(keep=first)
+        tabs.active = first
+        self.focus_first_input()
+        for footer in self.query(Footer):
+            footer.call_later(footer.rebuild_now)  # (the footer builds its keys in its own turn)
 
     @staticmethod
     def _section(children: list[Any]) -> VerticalScroll:

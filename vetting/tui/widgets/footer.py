@@ -38,6 +38,12 @@ class Footer(_TextualFooter):
             self._rebuild_pending = True
             self.call_after_refresh(self._rebuild_if_changed)
 
+    async def rebuild_now(self) -> None:
+        """Bring the keys shown up to date at once (e.g. for a screen about to be shown again,
+        whose bindings may not have been announced yet)."""
+        self._bindings_ready = True
+        await self._rebuild_if_changed()
+
     async def _rebuild_if_changed(self) -> None:
         self._rebuild_pending = False
         if not self.is_attached:

@@ -279,6 +279,20 @@ class RuleField(Widget):
             self.refresh()  # the label's weight
         self.input.set_class(invalid, "-invalid")
 
+    def refill(self, text: str, *, disabled: bool) -> None:
+        """Start again on `text`, as if the field had just been built with it (the editor
+        reuses its form for the next record)."""
+        self.initial = text
+        self.revealed = bool(text)
+        self.record_error = None
+        self.note = None
+        field_input = self.input
+        field_input.disabled = disabled
+        if field_input.value != text:
+            field_input.value = text
+        field_input.cursor_position = len(text)
+        self.check()
+
     def reveal(self) -> None:
         """Show every problem, including 'is required' on fields never typed in."""
         self.revealed = True
@@ -328,6 +342,18 @@ class RecordBlock(Vertical):
     @property
     def fields(self) -> dict[str, RuleField]:
         return {f.spec.name: f for f in self.query(RuleField)}
+
+    def same_shape(self, other: RecordBlock) -> bool:
+        """Whether `other` (not mounted) has this block's kind, fields and title."""
+        return (self.entity, self.specs, self.block_title) == (other.entity, other.specs, other.block_title)
+
+    def refill(self, texts: dict[str, str], *, locked: Iterable[str] = ()) -> None:
+        """Show another record of the same kind in these fields (see RuleField.refill)."""
+        self.texts = texts
+        self.locked = set(locked)
+        for name, field in self.fields.items():
+            field.refill(texts.get(name, ""), disabled=name in self.locked)
+        self.check_record()
 
     def on_rule_field_changed(self, event: RuleField.Changed) -> None:
         self.check_record()

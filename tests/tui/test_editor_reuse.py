@@ -1,0 +1,270 @@
+"""One form per editor, refilled for the next record (VettingApp._open_editor, EditorScreen.reuse).
+
+The app keeps one instrument editor and one job editor once built (and builds them unseen
+while the catalogue is at rest). Opening the next record must show that record and nothing of
+the one before: its values, its locked key, no leftover rule messages or notes, no unsaved
+changes, the first section shown, and the other sections built from the new record."""
+
+from __future__ import annotations
+
+import threading
+
+from textual.widgets import TabbedContent
+
+from vetting.records.store import Store
+from vetting.tui.screens.catalogue import CatalogueScreen
+from vetting.tui.screens.instrument import InstrumentEditor
+from vetting.tui.screens.job import JobEditor, JobsScreen
+from vetting.tui.widgets.confirm import Confirm
+from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField
+
+
+def _field(screen, selector: str, name: str) -> RuleField:
+    return screen.query_one(selector, RecordBlock).fields[name]
+
+
+def _message(field: RuleField) -> str:
+    """The message shown under a field ('' when none is shown)."""
+    for widget in field.query(".field-message"):
+        if widget.display:
+            return str(widget.render())
+    return ""
+
+
+async def _type_into(pilot, field: RuleField, text: str) -> None:
+    field.input.focus()
+    await pilot.pause()
+    field.input.value = ""
+    await pilot.press(*text)
+    await pilot.pause()
+
+
+async def test_editors_are_built_ahead_while_the_catalogue_rests(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        await pilot.pause(0.3)
+        await settle(pilot)
+        spare = app.get_screen("editor:InstrumentEditor")
+        assert isinstance(spare, InstrumentEditor) and spare.can_reuse()
+        assert spare.query_one(".description", RecordBlock)  # its form is built, unseen
+        assert isinstance(app.screen, CatalogueScreen)  # and the catalogue never left
+        assert isinstance(app.get_screen("editor:JobEditor"), JobEditor)
+        app.open_instrument("ledger-scan")
+        await settle(pilot)
+        assert app.screen is spare
+        assert _field(spare, ".description", "title").text == "Ledger Scan Checking Task"
+        assert _field(spare, ".description", "key").input.disabled
+        assert not spare.is_dirty()
+
+
+async def test_the_next_instrument_shows_its_own_values_and_nothing_left_over(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("ledger-scan")
+        await settle(pilot)
+        editor = app.screen
+        assert isinstance(editor, InstrumentEditor)
+        # leave a broken rule, a shown section and unsaved text behind
+        minutes = _field(editor, ".description", "minutes")
+        await _type_into(pilot, minutes, "-5")
+        assert _message(minutes).startswith("✗ minutes")
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert editor.built("reliability")
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("y")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)
+
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        assert app.screen is editor  # the same form, refilled
+        desc = ".description"
+        assert _field(editor, desc, "key").text == "tally-quick"
+        assert _field(editor, desc, "key").input.disabled
+        assert _field(editor, desc, "title").text == "Tally Quick Numbers"
+        assert _field(editor, desc, "minutes").text == "20"
+        assert _field(editor, desc, "publisher").text == "Brookfen Assessments"
+        assert _message(_field(editor, desc, "minutes")) == ""
+        assert not _field(editor, desc, "minutes").has_class("-invalid")
+        assert not editor.is_dirty()
+        assert "tally-quick" in str(editor.query_one("#heading").render())
+        assert str(editor.query_one("#banner").render()).strip() == ""
+        tabs = editor.query_one("#sections", TabbedContent)
+        assert tabs.active == "describe"
+        assert app.focused is _field(editor, desc, "title").input  # the key is locked
+        # the other sections come from this record when shown
+        assert not editor.built("reliability")
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert len(editor.query_one("#list-reliability", RecordList).blocks) == 2  # tally-quick has two
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)  # nothing changed: no question
+
+
+async def test_a_new_instrument_after_a_stored_one_starts_blank(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        editor = app.screen
+        await pilot.press("escape")
+        await settle(pilot)
+        await pilot.press("ctrl+n")
+        await settle(pilot)
+        assert app.screen is editor
+        key = _field(editor, ".description", "key")
+        assert not key.input.disabled and key.text == ""
+        assert app.focused is key.input
+        assert all(f.text == "" for f in editor.query_one(".description", RecordBlock).fields.values())
+        # "is required" waits for the first save, as on a form built new
+        assert _message(key) == "" and _message(_field(editor, ".description", "title")) == ""
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Not saved" in str(editor.query_one("#banner").render())
+        assert _message(key).startswith("✗ key")
+        await pilot.press(*"drill-two", "tab", *"Drill Two")
+        await _type_into(pilot, _field(editor, ".description", "measures"), "steadiness:primary")
+        await _type_into(pilot, _field(editor, ".description", "minutes"), "12")
+        await pilot.press("f9")
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+    with Store.open(seeded_url) as store:
+        saved = store.instrument("drill-two")
+        assert saved.title == "Drill Two" and saved.minutes == 12 and saved.reliability == []
+        assert store.instrument("tally-quick").minutes == 20  # the earlier record is untouched
+
+
+async def test_a_read_slower_than_the_limit_shows_loading_then_the_record(seeded_url, app_for, settle, monkeypatch):
+    app = app_for(seeded_url)
+    release = threading.Event()
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("calm-index")
+        await settle(pilot)
+        editor = app.screen
+        await pilot.press("escape")
+        await settle(pilot)
+        original = InstrumentEditor.load_record
+
+        def slow(self):
+            release.wait(5)
+            return original(self)
+
+        monkeypatch.setattr(InstrumentEditor, "load_record", slow)
+        app.open_instrument("ledger-scan")
+        await pilot.pause(editor.SHOW_LOADING_AFTER + 0.2)
+        assert app.screen is editor
+        assert editor.query_one("#loading").display
+        assert not editor.query_one("#sections").display  # calm-index is not shown meanwhile
+        release.set()
+        await settle(pilot)
+        assert not editor.query_one("#loading").display
+        assert _field(editor, ".description", "title").text == "Ledger Scan Checking Task"
+
+
+async def test_only_the_last_record_asked_for_is_shown(seeded_url, app_for, settle, monkeypatch):
+    app = app_for(seeded_url)
+    gate = threading.Event()
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("calm-index")
+        await settle(pilot)
+        editor = app.screen
+        await pilot.press("escape")
+        await settle(pilot)
+        original = InstrumentEditor.load_record
+
+        def held_for_the_first(self):
+            if self.key == "tally-quick":
+                gate.wait(5)  # the first read ends after the second
+            return original(self)
+
+        monkeypatch.setattr(InstrumentEditor, "load_record", held_for_the_first)
+        app.open_instrument("tally-quick")
+        app.open_instrument("ledger-scan")
+        await pilot.pause(0.1)
+        gate.set()
+        await settle(pilot)
+        await pilot.pause(0.2)
+        assert app.screen is editor
+        assert _field(editor, ".description", "title").text == "Ledger Scan Checking Task"
+        assert app.screen_stack.count(editor) == 1
+
+
+async def test_going_elsewhere_before_the_record_is_read_does_not_show_it(seeded_url, app_for, settle, monkeypatch):
+    app = app_for(seeded_url)
+    release = threading.Event()
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("calm-index")
+        await settle(pilot)
+        editor = app.screen
+        await pilot.press("escape")
+        await settle(pilot)
+        original = InstrumentEditor.load_record
+
+        def slow(self):
+            release.wait(5)
+            return original(self)
+
+        monkeypatch.setattr(InstrumentEditor, "load_record", slow)
+        app.open_instrument("ledger-scan")
+        await pilot.press("f3")  # within the wait, before "loading…" would show
+        await pilot.pause(0.05)
+        release.set()
+        await settle(pilot)
+        await pilot.pause(editor.SHOW_LOADING_AFTER + 0.1)
+        assert isinstance(app.screen, JobsScreen)
+        assert editor not in app.screen_stack
+        monkeypatch.setattr(InstrumentEditor, "load_record", original)
+        await pilot.press("f2")
+        await settle(pilot)
+        app.open_instrument("tally-quick")  # still usable
+        await settle(pilot)
+        assert app.screen is editor
+        assert _field(editor, ".description", "title").text == "Tally Quick Numbers"
+
+
+async def test_the_job_editor_refilled_for_a_new_job_builds_every_section(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        editor = app.screen
+        assert isinstance(editor, JobEditor)
+        assert _field(editor, ".job-profile", "title").text == "Claims clerk"
+        assert not editor.built("requirements")  # a stored job: built when shown
+        await pilot.press("escape")
+        await settle(pilot)
+        app.open_job(None)
+        await settle(pilot)
+        assert app.screen is editor
+        key = _field(editor, ".job-profile", "key")
+        assert not key.input.disabled and key.text == ""
+        assert _field(editor, ".job-profile", "title").text == ""
+        # a new job builds its one blank requirement and its policy at once (checked on saving)
+        assert editor.built("requirements") and editor.built("policy")
+        blocks = editor.query_one("#list-requirements", RecordList).blocks
+        assert len(blocks) == 1 and blocks[0].fields["importance"].text == "3"
+        assert "defaults" in str(editor.query_one("#policy-state").render())
+        await pilot.press("escape")
+        await settle(pilot)
+        app.open_job("claims-clerk")
+        await settle(pilot)
+        assert app.screen is editor
+        assert _field(editor, ".job-profile", "title").text == "Claims clerk"
+        assert _field(editor, ".job-profile", "key").input.disabled
+        assert not editor.built("requirements")
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        texts = [b.fields["attribute"].text for b in editor.query_one("#list-requirements", RecordList).blocks]
+        assert texts == ["number-sense", "careful-checking"]
+        assert not editor.is_dirty()
