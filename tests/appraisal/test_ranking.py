@@ -160,7 +160,7 @@ def test_lock_timing_with_mixed_naive_and_aware_times():
     assert r.locked_before_first_ranking
 
 
-from hypothesis import given, settings  # noqa: E402
+from hypothesis import example, given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 from hypothesis.extra.numpy import arrays  # noqa: E402
 
@@ -168,6 +168,9 @@ from hypothesis.extra.numpy import arrays  # noqa: E402
 @settings(max_examples=60, deadline=None)
 @given(arrays(np.float64, st.tuples(st.integers(2, 12), st.just(6)), elements=st.floats(0, 1)),
        st.floats(0, 0.1))
+# found by this test: a later row better only by a validity too small to change any computed
+# score (2.2e-311) ties the first row, and the tie goes to the earlier row, so it must stay
+@example(np.array([[1.0, 0, 0, 0, 0, 0]] + [[0.0] * 6] * 10 + [[1.0, 2.225073858507e-311, 0, 0, 0, 0]]), 0.0)
 def test_pruning_never_drops_the_policy_weight_winner_and_p_best_sums_to_one(C, se_value):
     from vetting.appraisal.ranking import _contenders, p_best_draws
 

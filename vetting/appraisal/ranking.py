@@ -339,11 +339,15 @@ def p_best_draws(
 def _contenders(C: np.ndarray, positive: np.ndarray, r0: np.ndarray, se: np.ndarray, block: int = 256) -> np.ndarray:
     """Indices of the instruments that can rank first in some draw (in their original order).
 
-    Instrument i can never rank first when another instrument j is at least as good on every
-    component with a positive weight in every draw (validity bounded by +/- TRUNCATE_SE x SE)
-    and either strictly better on one of them (all positive weights are > 0 in every Dirichlet
-    draw) or earlier in the order (argmax gives ties to the earlier one). Dropping such
-    instruments leaves the distribution of the winner unchanged and makes the draws cheap.
+    Instrument i can never rank first when an instrument j earlier in the order is at least as
+    good on every component with a positive weight in every draw (validity bounded by
+    +/- TRUNCATE_SE x SE): j's score is then at least i's in every draw, also as computed
+    (rounding keeps the order of the parts and sums), and argmax gives ties to the earlier one.
+    Dropping such instruments leaves the distribution of the winner unchanged and makes the
+    draws cheap. A later j, even strictly better on some component, cannot drop i: a
+    difference too small to survive the rounding of the draws leaves the two tied, and the
+    tie goes to i. (rank() passes the eligible instruments best score first, so nearly every
+    dominated instrument has a dominating one before it.)
     """
     vi = COMPONENT_NAMES.index("validity")
     m = C.shape[0]
@@ -355,12 +359,11 @@ def _contenders(C: np.ndarray, positive: np.ndarray, r0: np.ndarray, se: np.ndar
     keep = np.ones(m, dtype=bool)
     order = np.arange(m)
     for start in range(0, m, block):
-        i = slice(start, min(m, start + block))
-        ge = np.all(lo[None, :, :] >= hi[i, None, :], axis=2)  # [i, j]: j always >= i
-        gt = np.any(lo[None, :, :] > hi[i, None, :], axis=2)
-        earlier = order[None, :] < order[i, None]
-        dominated = ge & (gt | earlier)
-        keep[i] = ~dominated.any(axis=1)
+        end = min(m, start + block)
+        # [i, j] for i in this block and every j before its end: j always >= i, and j earlier
+        dominated = np.all(lo[None, :end, :] >= hi[start:end, None, :], axis=2)
+        dominated &= order[None, :end] < order[start:end, None]
+        keep[start:end] = ~dominated.any(axis=1)
     return np.flatnonzero(keep)
 
 
