@@ -268,3 +268,25 @@ async def test_the_job_editor_refilled_for_a_new_job_builds_every_section(seeded
         texts = [b.fields["attribute"].text for b in editor.query_one("#list-requirements", RecordList).blocks]
         assert texts == ["number-sense", "careful-checking"]
         assert not editor.is_dirty()
+
+
+async def test_a_long_value_shows_its_start_as_in_a_form_built_new(seeded_url, app_for, settle):
+    with Store.open(seeded_url) as store:
+        inst = store.instrument("calm-index")
+        inst.title = "Calm Index Inventory, " + "long form for every shift pattern and season " * 3
+        store.save_instrument(inst)
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        editor = app.screen
+        await pilot.press("escape")
+        await settle(pilot)
+        app.open_instrument("calm-index")
+        await settle(pilot)
+        assert app.screen is editor
+        title = _field(editor, ".description", "title").input
+        assert title.value.startswith("Calm Index Inventory, long form")
+        assert title.cursor_position == len(title.value)
+        assert title.scroll_offset.x == 0  # the start shown, not the end

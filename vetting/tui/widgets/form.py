@@ -290,7 +290,9 @@ class RuleField(Widget):
         field_input.disabled = disabled
         if field_input.value != text:
             field_input.value = text
+        # as a field built with this text: the cursor at its end, the view at its start
         field_input.cursor_position = len(text)
+        field_input.scroll_home(animate=False, force=True, immediate=True)
         self.check()
 
     def reveal(self) -> None:
