@@ -139,8 +139,8 @@ def test_instruments_that_fail_a_gate_are_appraised_only_when_read(monkeypatch):
     cat = generate_catalogue(300, seed=1)
     job = cat.jobs[0]
     calls = []
-    plain = rk.appraise
-    monkeypatch.setattr(rk, "appraise", lambda *a, **k: calls.append(a[1].key) or plain(*a, **k))
+    plain = rk._appraisal  # appraise()'s figures, for one instrument
+    monkeypatch.setattr(rk, "_appraisal", lambda *a, **k: calls.append(a[1].key) or plain(*a, **k))
     ranking = rk.rank(job, cat.instruments, draws=20, seed=0, as_of=AS_OF)
     eligible = ranking.eligible
     assert 0 < len(eligible) < len(cat.instruments)

@@ -107,6 +107,29 @@ def appraise(job: Job, instrument: Instrument, weights: dict[str, float], as_of:
     detail: the instrument's validity synthesis if already worked out (rank() does all of them
     in one grouped call); ctx: the job's context, worked out once per ranking.
     """
+    score, gates, components, warnings, detail, used_rel, impact_ratio = _appraisal(
+        job, instrument, weights, as_of, impact_ratio, detail, ctx)
+    return InstrumentAppraisal(
+        instrument=instrument.key,
+        title=instrument.title,
+        eligible=all(g.passed for g in gates.values()),
+        rank=None,
+        score=score,
+        gates=gates,
+        components=components,
+        warnings=warnings,
+        p_best=0.0,
+        validity=detail,
+        reliability_used=used_rel,
+        publisher=instrument.publisher,
+        impact_ratio=impact_ratio,
+    )
+
+
+def _appraisal(job: Job, instrument: Instrument, weights: dict[str, float], as_of: dt.date,
+               impact_ratio, detail: ValidityDetail | None, ctx: comp.JobContext | None) -> tuple:
+    """appraise()'s figures in _DEFERRED_FIELDS order: score, gates, components, warnings,
+    validity, reliability used, impact ratio."""
     policy = job.policy
     used_rel = choose_reliability(instrument)
     gates = evaluate_gates(job, instrument, policy, used_rel)
@@ -134,21 +157,7 @@ def appraise(job: Job, instrument: Instrument, weights: dict[str, float], as_of:
         if components[name].value is None and weights.get(name, 0) > 0:
             warnings.append(AppraisalWarning(f"missing_{name}", f"{name}: no evidence, counted as 0 in the score"))
     score = 100.0 * sum(weights[n] * (components[n].value or 0.0) for n in COMPONENT_NAMES)
-    return InstrumentAppraisal(
-        instrument=instrument.key,
-        title=instrument.title,
-        eligible=all(g.passed for g in gates.values()),
-        rank=None,
-        score=score,
-        gates=gates,
-        components=components,
-        warnings=_dedupe(warnings),
-        p_best=0.0,
-        validity=detail,
-        reliability_used=used_rel,
-        publisher=instrument.publisher,
-        impact_ratio=impact_ratio,
-    )
+    return score, gates, components, _dedupe(warnings), detail, used_rel, impact_ratio
 
 
 def _key(r: InstrumentAppraisal) -> str:
@@ -203,13 +212,10 @@ class _Pending:
             with gc_pause():
                 ratios = expected_impact_ratios(job, instruments)
                 details = comp.validity_details(instruments, job.policy, ctx)
+                puts = [put for _, put in _SLOTS.values()]
                 for (target, ins), ratio, detail in zip(alive, ratios, details):
-                    done = appraise(job, ins, weights, as_of, ratio, detail=detail, ctx=ctx)
-                    for name, (get, put) in _SLOTS.items():
-                        try:
-                            get(target)  # set by a caller before the first reading: kept
-                        except AttributeError:
-                            put(target, get(done))
+                    for put, value in zip(puts, _appraisal(job, ins, weights, as_of, ratio, detail, ctx)):
+                        put(target, value)
                     target._pending = None
             self.waiting = None
             self.job = self.ctx = None
@@ -233,7 +239,16 @@ def _deferred_field(name: str) -> property:
             self._pending.fill()
             return get(self)
 
-    return property(read, put, doc=f"{name} (written on first reading)")
+    def write(self, value):
+        try:
+            pending = _PENDING_SLOT(self)
+        except AttributeError:  # made by the dataclass's __init__ (dataclasses.replace)
+            pending = None
+        if pending is not None:  # the figures are written first, so a value set here stays
+            pending.fill()
+        put(self, value)
+
+    return property(read, write, doc=f"{name} (written on first reading)")
 
 
 class _DeferredAppraisal(InstrumentAppraisal):
@@ -258,6 +273,7 @@ class _DeferredAppraisal(InstrumentAppraisal):
         return InstrumentAppraisal, tuple(getattr(self, n) for n in _FIELD_NAMES)
 
 
+_PENDING_SLOT = _DeferredAppraisal.__dict__["_pending"].__get__
 for _name in _DEFERRED_FIELDS:
     setattr(_DeferredAppraisal, _name, _deferred_field(_name))
 del _name
