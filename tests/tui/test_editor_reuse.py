@@ -43,7 +43,10 @@ async def test_editors_are_built_ahead_while_the_catalogue_rests(seeded_url, app
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
         await settle(pilot)
-        await pilot.pause(0.3)
+        for _ in range(100):  # built at the first quiet moment after the warm-up
+            if app.is_screen_installed("editor:JobEditor"):
+                break
+            await pilot.pause(0.05)
         await settle(pilot)
         spare = app.get_screen("editor:InstrumentEditor")
         assert isinstance(spare, InstrumentEditor) and spare.can_reuse()

@@ -52,6 +52,8 @@ FULL_COLLECTION_AFTER = 25
 FULL_COLLECTION_AFTER_OPEN = 200
 IDLE_SECONDS = 5.0
 IDLE_CHECK_SECONDS = 1.0
+#: the editors are built ahead once no key has been pressed for this long (on the catalogue)
+PREBUILD_QUIET_SECONDS = 0.5
 
 #: the stylesheets of the screens in this package and the results screens (see CSS_PATH)
 SCREEN_STYLESHEETS = (
@@ -203,6 +205,8 @@ class VettingApp(App[int]):
         #: a screen was opened since the last full collection on the catalogue
         self._screen_closed = False
         self._default_job_started = False
+        #: the editors are to be built ahead at the next quiet moment (set after the warm-up)
+        self._prebuild_wanted = False
 
     # -- lifecycle ---------------------------------------------------------------------------
 
@@ -270,7 +274,8 @@ class VettingApp(App[int]):
         self.call_from_thread(self._freeze)
 
     def _freeze(self) -> None:
-        self.prebuild_editors()
+        self._prebuild_wanted = True
+        self._prebuild_when_quiet()
         if not self._heap_frozen:
             self._heap_frozen = True
             gc.freeze()
@@ -323,6 +328,7 @@ class VettingApp(App[int]):
         That waits until the catalogue alone has been shown for IDLE_SECONDS, so a screen that
         has just closed is garbage by then, not frozen with the rest.
         """
+        self._prebuild_when_quiet()
         now = time.monotonic()
         rest = self.at_rest()
         if not rest:
@@ -488,6 +494,16 @@ class VettingApp(App[int]):
         editor = cls(key)
         self.install_screen(editor, name)
         self.push_screen(editor)
+
+    def _prebuild_when_quiet(self) -> None:
+        """Build the editors ahead (once, see `prebuild_editors`) when the catalogue alone is
+        shown and no key has been pressed for PREBUILD_QUIET_SECONDS: never in a burst of typing."""
+        if not self._prebuild_wanted or not self.at_rest():
+            return
+        if time.monotonic() - self._last_input < PREBUILD_QUIET_SECONDS:
+            return  # the idle check (every IDLE_CHECK_SECONDS) tries again
+        self._prebuild_wanted = False
+        self.prebuild_editors()
 
     def prebuild_editors(self) -> None:
         """Build the instrument and job editors' forms ahead of use, unseen, while the user
