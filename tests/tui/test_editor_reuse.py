@@ -18,9 +18,7 @@ from vetting.tui.screens.job import JobEditor, JobsScreen
 from vetting.tui.widgets.confirm import Confirm
 from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField
 
-
-def _field(screen, selector: str, name: str) -> RuleField:
-    return screen.query_one(selector, RecordBlock).fields[name]
+from tests.tui.test_instrument_editor import _field, _type_into
 
 
 def _message(field: RuleField) -> str:
@@ -31,12 +29,28 @@ def _message(field: RuleField) -> str:
     return ""
 
 
-async def _type_into(pilot, field: RuleField, text: str) -> None:
-    field.input.focus()
-    await pilot.pause()
-    field.input.value = ""
-    await pilot.press(*text)
-    await pilot.pause()
+async def _closed_editor(app, pilot, settle) -> InstrumentEditor:
+    """The instrument editor, opened on calm-index and closed again (kept for the next)."""
+    await settle(pilot)
+    app.open_instrument("calm-index")
+    await settle(pilot)
+    editor = app.screen
+    assert isinstance(editor, InstrumentEditor)
+    await pilot.press("escape")
+    await settle(pilot)
+    return editor
+
+
+def _hold_reads(monkeypatch, release: threading.Event, key: str | None = None) -> None:
+    """Reading a record (`key`'s, or any) waits for `release` (at most 5 s)."""
+    original = InstrumentEditor.load_record
+
+    def held(self):
+        if key is None or self.key == key:
+            release.wait(5)
+        return original(self)
+
+    monkeypatch.setattr(InstrumentEditor, "load_record", held)
 
 
 async def test_editors_are_built_ahead_while_the_catalogue_rests(seeded_url, app_for, settle):
@@ -148,19 +162,8 @@ async def test_a_read_slower_than_the_limit_shows_loading_then_the_record(seeded
     app = app_for(seeded_url)
     release = threading.Event()
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("calm-index")
-        await settle(pilot)
-        editor = app.screen
-        await pilot.press("escape")
-        await settle(pilot)
-        original = InstrumentEditor.load_record
-
-        def slow(self):
-            release.wait(5)
-            return original(self)
-
-        monkeypatch.setattr(InstrumentEditor, "load_record", slow)
+        editor = await _closed_editor(app, pilot, settle)
+        _hold_reads(monkeypatch, release)
         app.open_instrument("ledger-scan")
         await pilot.pause(editor.SHOW_LOADING_AFTER + 0.2)
         assert app.screen is editor
@@ -176,20 +179,8 @@ async def test_only_the_last_record_asked_for_is_shown(seeded_url, app_for, sett
     app = app_for(seeded_url)
     gate = threading.Event()
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("calm-index")
-        await settle(pilot)
-        editor = app.screen
-        await pilot.press("escape")
-        await settle(pilot)
-        original = InstrumentEditor.load_record
-
-        def held_for_the_first(self):
-            if self.key == "tally-quick":
-                gate.wait(5)  # the first read ends after the second
-            return original(self)
-
-        monkeypatch.setattr(InstrumentEditor, "load_record", held_for_the_first)
+        editor = await _closed_editor(app, pilot, settle)
+        _hold_reads(monkeypatch, gate, "tally-quick")  # the first read ends after the second
         app.open_instrument("tally-quick")
         app.open_instrument("ledger-scan")
         await pilot.pause(0.1)
@@ -205,19 +196,8 @@ async def test_going_elsewhere_before_the_record_is_read_does_not_show_it(seeded
     app = app_for(seeded_url)
     release = threading.Event()
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("calm-index")
-        await settle(pilot)
-        editor = app.screen
-        await pilot.press("escape")
-        await settle(pilot)
-        original = InstrumentEditor.load_record
-
-        def slow(self):
-            release.wait(5)
-            return original(self)
-
-        monkeypatch.setattr(InstrumentEditor, "load_record", slow)
+        editor = await _closed_editor(app, pilot, settle)
+        _hold_reads(monkeypatch, release)
         app.open_instrument("ledger-scan")
         await pilot.press("f3")  # within the wait, before "loading…" would show
         await pilot.pause(0.05)
@@ -226,7 +206,7 @@ async def test_going_elsewhere_before_the_record_is_read_does_not_show_it(seeded
         await pilot.pause(editor.SHOW_LOADING_AFTER + 0.1)
         assert isinstance(app.screen, JobsScreen)
         assert editor not in app.screen_stack
-        monkeypatch.setattr(InstrumentEditor, "load_record", original)
+        monkeypatch.undo()
         await pilot.press("f2")
         await settle(pilot)
         app.open_instrument("tally-quick")  # still usable
