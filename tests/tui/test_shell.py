@@ -39,7 +39,21 @@ async def test_keys_screen_lists_every_binding(db_url, app_for, settle):
             for description in _described(cls):
                 assert (where, description) in listed, (where, description)
         assert table.row_count == len(key_rows(app))
+        await pilot.press("pagedown", "pagedown")
+        await settle(pilot)
+        assert table.cursor_row > 0 and table.scroll_offset.y > 0
         await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)
+        # kept between showings, and each showing starts at the top with the same list
+        help_screen = app.get_screen("help")
+        await pilot.press("f1")
+        await settle(pilot)
+        assert app.screen is help_screen
+        assert table.cursor_row == 0 and table.scroll_offset.y == 0
+        assert table.row_count == len(key_rows(app))
+        assert app.focused is table
+        await pilot.press("f1")
         await settle(pilot)
         assert isinstance(app.screen, CatalogueScreen)
 

@@ -430,7 +430,10 @@ class VettingApp(App[int]):
         if name == "help":  # help sits on top of whatever is open; nothing is lost
             from vetting.tui.screens.help import HelpScreen
 
-            self.push_screen(HelpScreen())
+            # built once and kept (the keys do not change while the app runs)
+            if not self.is_screen_installed("help"):
+                self.install_screen(HelpScreen(), "help")
+            self.push_screen("help")
             return
         if name == "catalogue":
             self.after_confirming(self._to_catalogue)

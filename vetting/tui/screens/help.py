@@ -91,5 +91,12 @@ class HelpScreen(Screen):
         table.add_rows(key_rows(self.app))
         table.focus()
 
+    def on_screen_resume(self) -> None:
+        # the screen is kept between showings (VettingApp.go): each showing starts at the top
+        table = self.query_one(DataTable)
+        table.move_cursor(row=0, animate=False)
+        table.scroll_home(animate=False, immediate=True)
+        table.focus()
+
     def action_close(self) -> None:
         self.app.pop_screen()
