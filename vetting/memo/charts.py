@@ -264,7 +264,9 @@ def _processors() -> int:
 
 
 def _helper_main(requests, results, memo_ends) -> None:
-    """The helper process: import matplotlib, then draw what is asked until the memo hangs up."""
+    """The helper process: import matplotlib, draw the one batch of charts the memo sends, send
+    the drawings back and end (ending early, it stops sharing memory pages with the memo, which
+    the memo then no longer copies as it writes to them)."""
     global _loaded
     import gc
 
@@ -276,23 +278,30 @@ def _helper_main(requests, results, memo_ends) -> None:
     try:
         _import_matplotlib()  # a process of its own: no caller frames to keep alive
         _loaded = True
-        while True:
+        batch = requests.recv()
+        drawn = []
+        for index, kind, chart, dpi in batch:
             try:
-                batch = requests.recv()
-            except EOFError:
-                return
-            drawn = []
-            for index, kind, chart, dpi in batch:
-                try:
-                    drawn.append((index, _draw_one(kind, chart, dpi)))
-                except Exception:  # drawn again in the memo's process, which then raises it
-                    drawn.append((index, None))
-            # sent once all are drawn: a picture fills the pipe, and the memo reads the first
-            # only when it needs it, so sending each as drawn would hold up the next drawing
-            for answer in drawn:
-                results.send(answer)
+                drawn.append((index, _draw_one(kind, chart, dpi)))
+            except Exception:  # drawn again in the memo's process, which then raises it
+                drawn.append((index, None))
+        # sent once all are drawn: a picture can fill the pipe, and the memo reads the first only
+        # when it needs it, so sending each as drawn could hold up the next drawing
+        for answer in drawn:
+            results.send(answer)
     except BaseException:  # the memo hung up, was interrupted, or draws for itself: nothing to add
         return
+
+
+def _widen(conn) -> None:
+    """Let the pipe hold a memo's pictures (about 0.1-0.3 MB) so the helper can send them all
+    and end before the memo reads them (Linux fcntl F_SETPIPE_SZ; up to 1 MB unprivileged)."""
+    try:
+        import fcntl
+
+        fcntl.fcntl(conn.fileno(), fcntl.F_SETPIPE_SZ, 1 << 20)
+    except (ImportError, AttributeError, OSError):
+        pass  # a narrower pipe: the helper waits for the memo to read, and ends then
 
 
 class ChartHelper:
@@ -307,7 +316,7 @@ class ChartHelper:
 
     def __init__(self, process, requests, results) -> None:
         self.process, self.requests, self.results = process, requests, results
-        self.keys: dict = {}  # (id(chart), kind, dpi) -> index of the request
+        self.keys: dict = {}  # (id(chart), kind, dpi) -> index of the request (one batch)
         self.got: dict = {}  # index -> bytes/str, or None where the helper could not draw it
         self.broken = False
 
@@ -321,6 +330,7 @@ class ChartHelper:
             ctx = multiprocessing.get_context("fork")
             req_read, req_write = ctx.Pipe(duplex=False)
             res_read, res_write = ctx.Pipe(duplex=False)
+            _widen(res_write)
             process = ctx.Process(target=_helper_main, args=(req_read, res_write, (req_write, res_read)),
                                   name="vetting-memo-charts", daemon=True)
             process.start()
@@ -331,7 +341,10 @@ class ChartHelper:
         return cls(process, req_write, res_read)
 
     def submit(self, wanted) -> None:
-        """Ask for the charts, each given as (chart, kind, dpi): kind "png" or "svg" (dpi None)."""
+        """Ask for the charts, each given as (chart, kind, dpi): kind "png" or "svg" (dpi None).
+        The helper draws one batch: charts asked for later are drawn in the memo's process."""
+        if self.keys:
+            return
         batch = []
         for chart, kind, dpi in wanted:
             key = (id(chart), kind, dpi)
