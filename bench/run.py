@@ -22,7 +22,9 @@ Measured at each size (see docs/performance.md for the goals and the latest figu
   rank         a stored job ranked with 10,000 robustness draws (records loaded from the database)
   rank-memory  the same ranking on instruments already in memory, beside a bare-numpy program doing
                the same arithmetic for every instrument (bench_appraisal.baseline_all), and the
-               robustness draws alone beside their bare-numpy form
+               robustness draws alone beside their bare-numpy form; also the ranking with every
+               instrument's evidence read (`rank_read_all_s`: the evidence of instruments failing
+               a gate is written on first reading)
   sweep        the cut-score sweep (99 selection ratios) for the top instrument
   memo-md/-html/-docx   a memo for the job in each format (the memo command's own path)
   tui-first    the interface's first usable screen (first_page_s) and until the table is filled
@@ -282,6 +284,18 @@ def _rank_memory(url: str):
         br, _, _ = _repeat(lambda: ba.baseline_all(ba.lay_out(job, instruments, AS_OF), w, DRAWS, 0),
                            at_least=0.5, most=5)
         extra.update({"numpy_from_records_s": round(br, 4), "ratio_to_numpy_from_records": round(seconds / br, 2)})
+        #    and the ranking with every instrument's evidence read (rank() writes the evidence
+        #    of the instruments failing a gate on first reading: the memo, `rank --json` and
+        #    Compare's table read it all), against the same two baselines
+        def read_all():
+            ranked = rank(job, instruments, draws=DRAWS, seed=0, as_of=AS_OF)
+            for r in ranked.results:
+                (r.score, r.gates, r.components, r.warnings, r.validity, r.reliability_used, r.impact_ratio)
+            return ranked
+
+        ra, _, _ = _repeat(read_all, at_least=0.5, most=5)
+        extra.update({"rank_read_all_s": round(ra, 4), "read_all_ratio_to_numpy": round(ra / b, 2),
+                      "read_all_ratio_to_numpy_from_records": round(ra / br, 2)})
         # 2. the robustness arithmetic alone (the draws and the weight flips of the eligible
         #    instruments) against the bare-numpy draws on the same component matrix
         elig = ranking.eligible
