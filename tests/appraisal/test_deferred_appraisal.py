@@ -139,8 +139,9 @@ def test_instruments_that_fail_a_gate_are_appraised_only_when_read(monkeypatch):
     cat = generate_catalogue(300, seed=1)
     job = cat.jobs[0]
     calls = []
-    plain = rk._appraisal  # appraise()'s figures, for one instrument
-    monkeypatch.setattr(rk, "_appraisal", lambda *a, **k: calls.append(a[1].key) or plain(*a, **k))
+    plain = rk.appraise_all  # appraise()'s figures, for the instruments given
+    monkeypatch.setattr(rk, "appraise_all",
+                        lambda job, instruments, *a, **k: calls.extend(i.key for i in instruments) or plain(job, instruments, *a, **k))
     ranking = rk.rank(job, cat.instruments, draws=20, seed=0, as_of=AS_OF)
     eligible = ranking.eligible
     assert 0 < len(eligible) < len(cat.instruments)

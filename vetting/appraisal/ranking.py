@@ -41,6 +41,7 @@ import numpy as np
 
 from vetting.appraisal import components as comp
 from vetting.appraisal.alternatives import find_alternatives
+from vetting.appraisal.batch import appraise_all
 from vetting.appraisal.errors import JobError
 from vetting.appraisal.gates import choose_reliability, evaluate_gates, passes_all_gates
 from vetting.appraisal.policy import normalised_weights, validate_policy
@@ -126,6 +127,15 @@ def appraise(job: Job, instrument: Instrument, weights: dict[str, float], as_of:
     )
 
 
+def _made(instrument: Instrument, figures: tuple) -> InstrumentAppraisal:
+    """The InstrumentAppraisal appraise() makes from _appraisal()'s figures."""
+    score, gates, components, warnings, detail, used_rel, impact_ratio = figures
+    return InstrumentAppraisal(
+        instrument.key, instrument.title, all(g.passed for g in gates.values()), None, score, gates,
+        components, warnings, 0.0, detail, used_rel, instrument.publisher, impact_ratio,
+    )
+
+
 def _appraisal(job: Job, instrument: Instrument, weights: dict[str, float], as_of: dt.date,
                impact_ratio, detail: ValidityDetail | None, ctx: comp.JobContext | None) -> tuple:
     """appraise()'s figures in _DEFERRED_FIELDS order: score, gates, components, warnings,
@@ -173,8 +183,8 @@ _FIELD_NAMES = tuple(f.name for f in dataclasses.fields(InstrumentAppraisal))
 class _Pending:
     """The instruments of one ranking that failed a gate, appraised together on first reading.
 
-    fill() gives each of them exactly what rank() gave every instrument before (`appraise` with
-    the job's context, the expected impact ratios in one vectorised call and the validity
+    fill() gives each of them exactly what rank() gives the eligible ones (`batch.appraise_all`:
+    appraise()'s figures, with the expected impact ratios in one vectorised call and the validity
     syntheses in one grouped call: per-instrument figures that do not depend on which other
     instruments are in the call). The ranking keeps its records until then; like every result
     of the engine it describes the records as they were given, so they should not be changed
@@ -210,11 +220,9 @@ class _Pending:
             alive = [(target, ins) for ref, ins in waiting if (target := ref()) is not None]
             instruments = [ins for _, ins in alive]
             with gc_pause():
-                ratios = expected_impact_ratios(job, instruments)
-                details = comp.validity_details(instruments, job.policy, ctx)
                 puts = [put for _, put in _SLOTS.values()]
-                for (target, ins), ratio, detail in zip(alive, ratios, details):
-                    for put, value in zip(puts, _appraisal(job, ins, weights, as_of, ratio, detail, ctx)):
+                for (target, _), figures in zip(alive, appraise_all(job, instruments, weights, as_of, ctx)):
+                    for put, value in zip(puts, figures):
                         put(target, value)
                     target._pending = None
             self.waiting = None
@@ -439,11 +447,8 @@ def rank(
         passes = passes_all_gates(job, policy)
         screened = [passes(ins) for ins in instruments]
         kept = [ins for ins, ok in zip(instruments, screened) if ok]
-        ratios = expected_impact_ratios(job, kept)
-        details = comp.validity_details(kept, policy, ctx)
         appraised = iter([
-            appraise(job, ins, weights, as_of, ratio, detail=detail, ctx=ctx)
-            for ins, ratio, detail in zip(kept, ratios, details)
+            _made(ins, figures) for ins, figures in zip(kept, appraise_all(job, kept, weights, as_of, ctx))
         ])
         pending = _Pending(job, weights, as_of, ctx)
         results = [next(appraised) if ok else pending.add(ins) for ins, ok in zip(instruments, screened)]

@@ -1,0 +1,390 @@
+"""Every instrument's appraisal for one job in one pass: what rank() writes for each instrument.
+
+`appraise_all` gives, for each instrument, exactly what `ranking._appraisal` gives it (the gates
+with their reasons, the six components with their words, the warnings, the validity synthesis,
+the reliability used and the expected impact ratio, then the score): the same rules, the same
+arithmetic in the same order and the same sentences. It only does once per ranking what does
+not depend on the instrument (the job's limits and budgets in words, the policy's minimum, the
+qualification gate of each level, the occupation of each norm group, the words of each
+synthesis rule), works out each instrument's reliability choice, worst subgroup difference and
+figures in words once where several gates and components share them, and writes every result
+in one function instead of one call per gate and component. Uncommon cases (a reliability type
+outside the preferred tiers, an unknown selection ratio) take the plain functions themselves.
+tests/appraisal/test_batch_appraisal.py pins every field, to the bit, against the plain path.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+
+import numpy as np
+
+from vetting.appraisal import components as comp
+from vetting.appraisal.gates import RELIABILITY_TIERS, _reliability_order, choose_reliability, gate_qualification
+from vetting.appraisal.types import (
+    COMPONENT_NAMES,
+    AppraisalWarning,
+    Component,
+    GateResult,
+    ReliabilityUsed,
+    StudyUse,
+    ValidityDetail,
+)
+from vetting.records.domain import Instrument, Job
+
+_TIER = {t: i for i, tier in enumerate(RELIABILITY_TIERS) for t in tier}
+_NO_TIER = len(RELIABILITY_TIERS)
+_PREFERRED = ": a retest/alternate-form figure is preferred for selection use"
+_NEXT = ": no retest or alternate-form figure is recorded, so the next preferred kind is used"
+_SEVERAL = "; of several figures of this kind, the one from the largest sample (then the lower) is used"
+_RETEST = ("retest", "alternate")
+
+
+def validity_details(instruments: list[Instrument], policy, ctx: comp.JobContext) -> list[ValidityDetail]:
+    """`components.validity_details` with the study choice written inline (the same reasons,
+    the same grouped engine call, each detail made once with its figures)."""
+    from vetting.psychometrics import validity as pv
+
+    criteria, families = ctx.criteria, ctx.families
+    designs = comp.CRITERION_DESIGNS
+    splits = []
+    for instrument in instruments:
+        used, excluded = [], []
+        for i, s in enumerate(instrument.validity):
+            design = s.design
+            if design not in designs:
+                reason = f"{design} study: not a criterion-related validity coefficient"
+            elif criteria is not None and (s.criterion is None or s.criterion.strip().lower() not in criteria):
+                reason = f"criterion '{s.criterion}' is not marked relevant for this job"
+            elif families is not None and (s.job_family is None or s.job_family.strip().lower() not in families):
+                reason = (
+                    "job family not stated" if s.job_family is None
+                    else f"job family '{s.job_family}' is not marked relevant for this job"
+                )
+            elif s.n < 4:
+                reason = f"sample too small to use (N = {s.n})"
+            else:
+                used.append(StudyUse(
+                    i, s.criterion, s.r, s.r_signed, s.n, s.job_family, design, s.source, True,
+                    "used (sign reversed: lower criterion is better)" if s.lower_is_better else "used",
+                ))
+                continue
+            excluded.append(StudyUse(i, s.criterion, s.r, s.r_signed, s.n, s.job_family, design, s.source, False, reason))
+        splits.append((used, excluded))
+    grouped = comp.synthesise([used for used, _ in splits])
+    details = []
+    if grouped is None:
+        for used, excluded in splits:
+            details.append(ValidityDetail(None, None, "no relevant criterion-related study", None, used, excluded))
+        return details
+    rule = pv.CONSERVATIVE_RULE + " (basis: "
+    rules: dict = {}
+    figures = zip(grouped.metas(), grouped.conservative.tolist(), grouped.basis.tolist(), grouped.floored.tolist())
+    for used, excluded in splits:
+        if not used:
+            details.append(ValidityDetail(None, None, "no relevant criterion-related study", None, used, excluded))
+            continue
+        meta, value, basis, floored = next(figures)
+        text = rules.get((basis, floored))
+        if text is None:
+            text = rules[basis, floored] = rule + basis + ("; floored at 0)" if floored else ")")
+        details.append(ValidityDetail(meta, value, text, meta.se_mean_r, used, excluded))
+    return details
+
+
+def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, float], as_of: dt.date,
+                 ctx: comp.JobContext) -> list[tuple]:
+    """For each instrument, `ranking._appraisal(job, instrument, weights, as_of, ratio, detail,
+    ctx)`'s figures (score, gates, components, warnings, validity, reliability used, impact
+    ratio), with the expected impact ratios and validity syntheses of all of them worked out
+    in one vectorised and one grouped engine call, as rank() always did."""
+    policy = job.policy
+    if ctx.job is not job or ctx.policy is not policy:
+        ctx = comp.JobContext(job)
+    n_ins = len(instruments)
+    # --- the job's side, once -----------------------------------------------------------
+    w_all = [weights[n] for n in COMPONENT_NAMES]
+    missing = [(i, f"missing_{n}", f"{n}: no evidence, counted as 0 in the score")
+               for i, n in enumerate(COMPONENT_NAMES) if weights.get(n, 0) > 0]
+    required = [r.attribute for r in job.requirements]
+    positions = ctx.positions
+    requirements = ctx.requirements
+    zero_words = ctx.zero_words
+    critical = ctx.critical
+    total = ctx.total_weight
+    total_txt = f"{total:g}"
+    unrelated = f"measures none of the job's required attributes ({', '.join(required) or 'none listed'})"
+    minimum = policy.min_reliability
+    min_txt = f"{minimum:.2f}"
+    no_rel_gate = f"no reliability figure is recorded (policy minimum {min_txt})"
+    limit = job.applicant_reading_grade
+    limit_txt = None if limit is None else f"{limit:g}"
+    budget = job.time_budget_minutes
+    budget_txt = None if budget is None else f"{budget:g}"
+    cost_budget = job.budget_per_applicant
+    cost_budget_txt = None if cost_budget is None else f"{cost_budget:g}"
+    quals: dict = {}  # user qualification -> (passed, reason, warning) of the qualification gate
+    max_age = policy.max_norm_age_years
+    too_old = f"every norm group is older than the policy allows ({max_age} years)"
+    older = f" (older than the policy's {max_age} years)"
+    year = as_of.year
+    occupations: dict = {}  # a norm group's occupation -> its match with the job
+    scope_credit = comp.SCOPE_CREDIT
+    occ_credit = comp.OCCUPATION_CREDIT
+    full_size = comp.NORM_FULL_SIZE
+    sqrt = math.sqrt
+    fit_credit = comp.FIT_CREDIT
+    rel_zero = comp.RELIABILITY_ZERO
+    rel_span = comp.RELIABILITY_FULL - comp.RELIABILITY_ZERO
+    full_marks = comp.VALIDITY_FULL_MARKS
+    small = comp.SMALL_STUDY_N
+    slope = comp.PRACTICALITY_SLOPE
+    sr = job.selection_ratio
+    sr_known = sr is not None and 0 < sr <= 1
+    sr_txt = f"{sr:.2f}" if sr_known else None
+    floor = policy.impact_ratio_floor
+    floor_txt = f"{floor:.2f}"
+    cov_map, val_map, rel_map = comp.COVERAGE_MAPPING, comp.VALIDITY_MAPPING, comp.RELIABILITY_MAPPING
+    norm_map, fair_map, prac_map = comp.NORMS_MAPPING, comp.FAIRNESS_MAPPING, comp.PRACTICALITY_MAPPING
+    W = AppraisalWarning
+    G = GateResult
+    C = Component
+
+    # --- the engine's grouped calls: impact ratios, validity syntheses --------------------
+    worst = [max(ins.subgroup_differences, key=_d) if ins.subgroup_differences else None for ins in instruments]
+    ratios: list = [None] * n_ins
+    idx = [k for k, s in enumerate(worst) if s is not None]
+    if sr_known and idx:
+        from vetting.psychometrics import impact as pi
+
+        values = np.atleast_1d(pi.expected_impact(np.array([worst[k].d for k in idx], dtype=float), sr)[1]).tolist()
+        for k, value in zip(idx, values):
+            ratios[k] = value
+    details = validity_details(instruments, policy, ctx)
+
+    out = []
+    for ins, sub, ratio, detail in zip(instruments, worst, ratios, details):
+        warnings = []
+        # --- reliability used (gates.choose_reliability) --------------------------------
+        records = ins.reliability
+        rel_txt = None
+        if not records:
+            used_rel = ReliabilityUsed(None, None, None, "no reliability figure is recorded")
+        else:
+            tiers = [_TIER.get(r.type, _NO_TIER) for r in records]
+            t = min(tiers)
+            if t == _NO_TIER:
+                used_rel = choose_reliability(ins)
+            else:
+                candidates = [r for r, ti in zip(records, tiers) if ti == t]
+                best = candidates[0] if len(candidates) == 1 else min(candidates, key=_reliability_order)
+                rel_txt = f"{best.value:.2f}"
+                why = f"{best.type} reliability {rel_txt}" + (f" (N = {best.n})" if best.n else " (N not stated)")
+                why += _PREFERRED if t == 0 else _NEXT
+                if len(candidates) > 1:
+                    why += _SEVERAL
+                others = [r.type for r in records if r is not best]
+                if others:
+                    why += f"; also recorded: {', '.join(sorted(set(others)))}"
+                used_rel = ReliabilityUsed(best.type, best.value, best.n, why, best.source)
+        rel_value = used_rel.value
+        rel_type = used_rel.type
+        if rel_value is not None and rel_txt is None:
+            rel_txt = f"{rel_value:.2f}"
+
+        # --- gates ----------------------------------------------------------------------
+        fits: dict[str, float] = {}
+        measured = set()
+        for m in ins.measures:
+            attribute = m.attribute
+            measured.add(attribute)
+            credit = fit_credit.get(m.fit, 0.0)
+            if credit > fits.get(attribute, 0.0):
+                fits[attribute] = credit
+        at = sorted(i for a in measured for i in positions.get(a, ()))
+        if at:
+            g_rel = G("job_relatedness", True, f"measures required attribute(s): {', '.join([required[i] for i in at])}")
+        else:
+            g_rel = G("job_relatedness", False, unrelated)
+        studies = ins.validity
+        if studies:
+            g_val = G("validity_evidence", True, f"{len(studies)} validity record(s), total N = {sum(s.n for s in studies)}")
+        else:
+            g_val = G("validity_evidence", False, "no validity study is recorded")
+        if rel_value is None:
+            g_rb = G("reliability", False, no_rel_gate)
+        elif rel_value >= minimum:
+            g_rb = G("reliability", True, f"{rel_type} reliability {rel_txt} >= policy minimum {min_txt}")
+        else:
+            g_rb = G("reliability", False, f"{rel_type} reliability {rel_txt} < policy minimum {min_txt}")
+        grade = ins.reading_grade
+        if grade is None or limit is None:
+            missing_grade = "the material's reading grade" if grade is None else "the applicants' reading grade"
+            if grade is None and limit is None:
+                missing_grade = "both reading grades"
+            text = f"reading level not checked: {missing_grade} unknown"
+            g_read = G("reading_level", True, f"passes by default: {missing_grade} unknown", text)
+            warnings.append(W("reading_level_not_checked", text))
+        elif grade <= limit:
+            g_read = G("reading_level", True, f"reading grade {grade:g} <= applicants' grade {limit_txt}")
+        else:
+            g_read = G("reading_level", False, f"reading grade {grade:g} > applicants' grade {limit_txt}")
+        minutes = ins.minutes
+        min_words = f"{minutes:g}"
+        if budget is None:
+            g_time = G("time", True, f"passes by default: {min_words} min, the job has no time budget",
+                       "time not checked: the job has no time budget")
+            warnings.append(W("time_not_checked", "time not checked: the job has no time budget"))
+        elif minutes <= budget:
+            g_time = G("time", True, f"{min_words} min <= budget {budget_txt} min")
+        else:
+            g_time = G("time", False, f"{min_words} min > budget {budget_txt} min")
+        need = ins.user_qualification
+        q = quals.get(need)
+        if q is None:
+            g = gate_qualification(job, ins)
+            q = quals[need] = (g.passed, g.reason, g.warning)
+        g_qual = G("qualification", q[0], q[1], q[2])
+        if q[2]:
+            warnings.append(W("qualification_not_checked", q[2]))
+        gates = {"job_relatedness": g_rel, "validity_evidence": g_val, "reliability": g_rb,
+                 "reading_level": g_read, "time": g_time, "qualification": g_qual}
+
+        # --- coverage -------------------------------------------------------------------
+        hits = sorted((i, credit) for attribute, credit in fits.items() for i in positions.get(attribute, ()))
+        got = 0.0
+        parts = list(zero_words)
+        for i, credit in hits:
+            attribute, weight, _, words = requirements[i]
+            got += weight * credit
+            parts[i] = words.get(credit) or f"{attribute} {credit:g}x{weight:g}"
+        if critical:
+            missing_critical = [a for a in critical if not fits.get(a)]
+            if missing_critical:
+                names = ", ".join(f"'{a}'" for a in missing_critical)
+                warnings.append(W("critical_attribute_not_measured", f"critical attribute(s) not measured: {names}"))
+        v_cov = got / total if total > 0 else 0.0
+        c_cov = C("coverage", v_cov, v_cov, f"{got:g} of {total_txt} weighted points ({'; '.join(parts)})", cov_map)
+
+        # --- validity -------------------------------------------------------------------
+        r = detail.conservative
+        if r is None:
+            n_ex = len(detail.studies_excluded)
+            text = "no relevant criterion-related validity study" + (f" ({n_ex} excluded)" if n_ex else "")
+            warnings.append(W("no_relevant_validity", text))
+            v_val = None
+            c_val = C("validity", None, None, text, val_map)
+        else:
+            v_val = min(1.0, max(0.0, r / full_marks))
+            su = detail.studies_used
+            total_n = sum(s.n for s in su)
+            mean_r = getattr(detail.meta, "mean_r", None)
+            raw_text = f"conservative r = {r:.3f} (k = {len(su)}, N = {total_n}"
+            raw_text += f", mean r = {float(mean_r):.3f})" if mean_r is not None else ")"
+            if all(u.n < small for u in su):
+                warnings.append(W("validity_small_samples",
+                                  f"every relevant validity study has N < {small} (total N = {total_n})"))
+            c_val = C("validity", v_val, r, raw_text, val_map)
+
+        # --- reliability ----------------------------------------------------------------
+        if rel_value is None:
+            v_rb = None
+            c_rb = C("reliability", None, None, "no reliability figure recorded", rel_map)
+            warnings.append(W("no_reliability", "no reliability figure is recorded"))
+        else:
+            v_rb = min(1.0, max(0.0, (rel_value - rel_zero) / rel_span))
+            n = used_rel.n
+            c_rb = C("reliability", v_rb, rel_value, f"{rel_type} r = {rel_txt}" + (f" (N = {n})" if n else ""), rel_map)
+            if rel_type not in _RETEST:
+                warnings.append(W("no_retest_reliability", "no retest or alternate-form reliability is recorded"))
+
+        # --- norms ----------------------------------------------------------------------
+        norms = ins.norms
+        if not norms:
+            v_norm = None
+            c_norm = C("norms", None, None, "no norm group recorded", norm_map)
+            warnings.append(W("no_norms", "no norm group is recorded"))
+        else:
+            ages = [max(0, year - nm.year) for nm in norms]
+            if min(ages) > max_age:
+                warnings.append(W("norms_too_old", too_old))
+            best_norm = None
+            for nm, age in zip(norms, ages):
+                occupation = nm.occupation
+                occ = occupations.get(occupation)
+                if occ is None:
+                    occ = occupations[occupation] = comp.occupation_match(nm, job, policy, ctx)
+                if age > max_age:
+                    value = 0.0
+                else:
+                    value = (min(1.0, max(0.0, 1.0 - age / max_age)) + scope_credit.get(nm.scope, 0.0)
+                             + min(1.0, sqrt(max(nm.n, 0) / full_size)) + occ_credit[occ]) / 4.0
+                if best_norm is None or (value, nm.n, nm.year) > (v_norm, best_norm.n, best_norm.year):
+                    best_norm, v_norm, b_age, b_occ = nm, value, age, occ
+            words = f"best group '{best_norm.key}': {b_age} years old, {best_norm.scope}, n = {best_norm.n}, occupation {b_occ}"
+            if b_age > max_age:
+                words += older
+            c_norm = C("norms", v_norm, v_norm, words, norm_map)
+
+        # --- fairness -------------------------------------------------------------------
+        if sub is None:
+            v_fair = None
+            c_fair = C("fairness", None, None, "no subgroup difference recorded", fair_map)
+            warnings.append(W("no_subgroup_data", "no subgroup difference (d) is recorded; adverse impact cannot be estimated"))
+        elif not sr_known:
+            c_fair, w, ratio = comp.fairness_component(job, ins, policy)
+            v_fair = c_fair.value
+            warnings += w
+        else:
+            d_txt = f"{sub.d:.2f}"
+            ratio_txt = f"{ratio:.2f}"
+            if ratio < floor:
+                warnings.append(W("impact_below_floor", f"expected impact ratio {ratio_txt} is below the policy floor "
+                                  f"{floor_txt} at selection ratio {sr_txt}"))
+            v_fair = min(1.0, max(0.0, ratio))
+            c_fair = C("fairness", v_fair, ratio,
+                       f"expected impact ratio {ratio_txt} at selection ratio {sr_txt} (d = {d_txt}, {sub.groups})", fair_map)
+
+        # --- practicality ---------------------------------------------------------------
+        prac, words = [], []
+        if budget is not None:
+            if budget <= 0:
+                prac.append(1.0 if minutes <= 0 else 0.0)
+            else:
+                x = minutes / budget
+                prac.append(0.0 if x > 1 else min(1.0, max(0.0, 1.0 - slope * x)))
+            words.append(f"{min_words} of {budget_txt} min")
+        if cost_budget is not None:
+            cost = ins.cost_per_applicant
+            if cost is None:
+                warnings.append(W("cost_unknown", "the cost per applicant is not recorded"))
+            else:
+                if cost_budget <= 0:
+                    prac.append(1.0 if cost <= 0 else 0.0)
+                else:
+                    x = cost / cost_budget
+                    prac.append(0.0 if x > 1 else min(1.0, max(0.0, 1.0 - slope * x)))
+                cur = f" {ins.currency}" if ins.currency else ""
+                words.append(f"cost {cost:g}{cur} of budget {cost_budget_txt}")
+        if prac:
+            v_prac = sum(prac) / len(prac)
+            c_prac = C("practicality", v_prac, v_prac, "; ".join(words), prac_map)
+        else:
+            warnings.append(W("no_budgets", "practicality cannot be scored: no time or cost budget (or no cost) recorded"))
+            v_prac = None
+            c_prac = C("practicality", None, None, "no budget to compare against", prac_map)
+
+        values = (v_cov, v_val, v_rb, v_norm, v_fair, v_prac)
+        for i, code, text in missing:
+            if values[i] is None:
+                warnings.append(W(code, text))
+        score = 100.0 * sum([w * (v or 0.0) for w, v in zip(w_all, values)])
+        components = {"coverage": c_cov, "validity": c_val, "reliability": c_rb,
+                      "norms": c_norm, "fairness": c_fair, "practicality": c_prac}
+        out.append((score, gates, components, warnings, detail, used_rel, ratio))
+    return out
+
+
+def _d(s) -> float:
+    return s.d
