@@ -20,7 +20,7 @@ from vetting.appraisal import components as comp
 from vetting.appraisal.batch import appraise_all, validity_details
 from vetting.appraisal.policy import normalised_weights
 from vetting.appraisal.ranking import _appraisal, expected_impact_ratios, rank
-from vetting.records.domain import Reliability, ValidityStudy
+from vetting.records.domain import Measure, Reliability, ValidityStudy
 from vetting.records.synthetic import generate_catalogue
 
 AS_OF = dt.date(2026, 11, 1)
@@ -68,10 +68,10 @@ def _variants(job, rng):
     yield narrowed
 
 
-def _odd_instruments(instruments, rng):
+def _odd_instruments(instruments, rng, attribute):
     """Copies with records the generator seldom writes: no reliability, a type outside the
-    preferred tiers, several figures of one kind, no validity, a study too small to use, no
-    time and no cost."""
+    preferred tiers, several figures of one kind, no validity and a required attribute measured
+    with a fit that earns no credit, a study too small to use, no time and no cost."""
     out = []
     for i, ins in enumerate(instruments):
         ins = copy.deepcopy(ins)
@@ -85,6 +85,8 @@ def _odd_instruments(instruments, rng):
                                Reliability("internal", 0.9, 900)]
         elif kind == 3:
             ins.validity = []
+            # a fit that earns no coverage credit still counts for the job-relatedness gate
+            ins.measures = [m for m in ins.measures if m.attribute != attribute] + [Measure(attribute, "incidental")]
         elif kind == 4:
             ins.validity = list(ins.validity) + [ValidityStudy(criterion="job-performance", r=0.3, n=3,
                                                                design="predictive")]
@@ -99,7 +101,7 @@ def _odd_instruments(instruments, rng):
 def test_appraise_all_gives_the_plain_path_to_the_bit(size, seed):
     cat = generate_catalogue(size, seed=seed)
     rng = random.Random(seed)
-    instruments = cat.instruments + _odd_instruments(cat.instruments[:60], rng)
+    instruments = cat.instruments + _odd_instruments(cat.instruments[:60], rng, cat.jobs[0].requirements[0].attribute)
     for base in cat.jobs[:3]:
         for job in _variants(base, rng):
             weights = normalised_weights(job.policy)

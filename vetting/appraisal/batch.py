@@ -33,6 +33,9 @@ from vetting.appraisal.types import (
 )
 from vetting.records.domain import Instrument, Job
 
+# appraise_all names the components one by one, in this order (the order of the score's sum)
+assert COMPONENT_NAMES == ("coverage", "validity", "reliability", "norms", "fairness", "practicality")
+
 _TIER = {t: i for i, tier in enumerate(RELIABILITY_TIERS) for t in tier}
 _NO_TIER = len(RELIABILITY_TIERS)
 _PREFERRED = ": a retest/alternate-form figure is preferred for selection use"
@@ -44,14 +47,27 @@ _RETEST = ("retest", "alternate")
 def validity_details(instruments: list[Instrument], policy, ctx: comp.JobContext) -> list[ValidityDetail]:
     """`components.validity_details` with the study choice written inline (the same reasons,
     the same grouped engine call, each detail made once with its figures)."""
+    return _validity(instruments, policy, ctx)[0]
+
+
+def _validity(instruments: list[Instrument], policy, ctx: comp.JobContext) -> tuple[list[ValidityDetail], list[tuple]]:
+    """validity_details, and for each instrument the total N of all its studies, the total N
+    of the studies used and whether every study used has N < SMALL_STUDY_N (added in the
+    studies' order, as the gate and the component add them)."""
     from vetting.psychometrics import validity as pv
 
     criteria, families = ctx.criteria, ctx.families
     designs = comp.CRITERION_DESIGNS
+    small = comp.SMALL_STUDY_N
     splits = []
+    sums = []
     for instrument in instruments:
         used, excluded = [], []
+        n_all = n_used = 0
+        all_small = True
         for i, s in enumerate(instrument.validity):
+            n = s.n
+            n_all += n
             design = s.design
             if design not in designs:
                 reason = f"{design} study: not a criterion-related validity coefficient"
@@ -62,22 +78,26 @@ def validity_details(instruments: list[Instrument], policy, ctx: comp.JobContext
                     "job family not stated" if s.job_family is None
                     else f"job family '{s.job_family}' is not marked relevant for this job"
                 )
-            elif s.n < 4:
-                reason = f"sample too small to use (N = {s.n})"
+            elif n < 4:
+                reason = f"sample too small to use (N = {n})"
             else:
                 used.append(StudyUse(
-                    i, s.criterion, s.r, s.r_signed, s.n, s.job_family, design, s.source, True,
+                    i, s.criterion, s.r, s.r_signed, n, s.job_family, design, s.source, True,
                     "used (sign reversed: lower criterion is better)" if s.lower_is_better else "used",
                 ))
+                n_used += n
+                if all_small and not n < small:
+                    all_small = False
                 continue
-            excluded.append(StudyUse(i, s.criterion, s.r, s.r_signed, s.n, s.job_family, design, s.source, False, reason))
+            excluded.append(StudyUse(i, s.criterion, s.r, s.r_signed, n, s.job_family, design, s.source, False, reason))
         splits.append((used, excluded))
+        sums.append((n_all, n_used, all_small))
     grouped = comp.synthesise([used for used, _ in splits])
     details = []
     if grouped is None:
         for used, excluded in splits:
             details.append(ValidityDetail(None, None, "no relevant criterion-related study", None, used, excluded))
-        return details
+        return details, sums
     rule = pv.CONSERVATIVE_RULE + " (basis: "
     rules: dict = {}
     figures = zip(grouped.metas(), grouped.conservative.tolist(), grouped.basis.tolist(), grouped.floored.tolist())
@@ -90,7 +110,7 @@ def validity_details(instruments: list[Instrument], policy, ctx: comp.JobContext
         if text is None:
             text = rules[basis, floored] = rule + basis + ("; floored at 0)" if floored else ")")
         details.append(ValidityDetail(meta, value, text, meta.se_mean_r, used, excluded))
-    return details
+    return details, sums
 
 
 def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, float], as_of: dt.date,
@@ -104,7 +124,7 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
         ctx = comp.JobContext(job)
     n_ins = len(instruments)
     # --- the job's side, once -----------------------------------------------------------
-    w_all = [weights[n] for n in COMPONENT_NAMES]
+    w_cov, w_val, w_rb, w_norm, w_fair, w_prac = [weights[n] for n in COMPONENT_NAMES]
     missing = [(i, f"missing_{n}", f"{n}: no evidence, counted as 0 in the score")
                for i, n in enumerate(COMPONENT_NAMES) if weights.get(n, 0) > 0]
     required = [r.attribute for r in job.requirements]
@@ -124,6 +144,8 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
     budget_txt = None if budget is None else f"{budget:g}"
     cost_budget = job.budget_per_applicant
     cost_budget_txt = None if cost_budget is None else f"{cost_budget:g}"
+    plans: dict = {}  # the types of an instrument's reliability records -> _reliability_plan
+    suffixes: dict = {}  # (tier, candidates, other types) -> the end of the reason
     quals: dict = {}  # user qualification -> (passed, reason, warning) of the qualification gate
     max_age = policy.max_norm_age_years
     too_old = f"every norm group is older than the policy allows ({max_age} years)"
@@ -161,10 +183,10 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
         values = np.atleast_1d(pi.expected_impact(np.array([worst[k].d for k in idx], dtype=float), sr)[1]).tolist()
         for k, value in zip(idx, values):
             ratios[k] = value
-    details = validity_details(instruments, policy, ctx)
+    details, sums = _validity(instruments, policy, ctx)
 
     out = []
-    for ins, sub, ratio, detail in zip(instruments, worst, ratios, details):
+    for ins, sub, ratio, detail, (n_all, total_n, all_small) in zip(instruments, worst, ratios, details, sums):
         warnings = []
         # --- reliability used (gates.choose_reliability) --------------------------------
         records = ins.reliability
@@ -172,44 +194,55 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
         if not records:
             used_rel = ReliabilityUsed(None, None, None, "no reliability figure is recorded")
         else:
-            tiers = [_TIER.get(r.type, _NO_TIER) for r in records]
-            t = min(tiers)
-            if t == _NO_TIER:
+            types = tuple([r.type for r in records])
+            plan = plans.get(types)
+            if plan is None:
+                plan = plans[types] = _reliability_plan(types)
+            if plan is None:  # no record of a preferred type
                 used_rel = choose_reliability(ins)
             else:
-                candidates = [r for r, ti in zip(records, tiers) if ti == t]
-                best = candidates[0] if len(candidates) == 1 else min(candidates, key=_reliability_order)
+                t, cand = plan
+                if len(cand) == 1:
+                    best = records[cand[0]]
+                else:
+                    best = min([records[i] for i in cand], key=_reliability_order)
+                others = tuple([r.type for r in records if r is not best]) if len(records) > 1 else ()
+                key = (t, len(cand), others)
+                suffix = suffixes.get(key)
+                if suffix is None:
+                    suffix = suffixes[key] = (
+                        (_PREFERRED if t == 0 else _NEXT) + (_SEVERAL if len(cand) > 1 else "")
+                        + (f"; also recorded: {', '.join(sorted(set(others)))}" if others else "")
+                    )
                 rel_txt = f"{best.value:.2f}"
-                why = f"{best.type} reliability {rel_txt}" + (f" (N = {best.n})" if best.n else " (N not stated)")
-                why += _PREFERRED if t == 0 else _NEXT
-                if len(candidates) > 1:
-                    why += _SEVERAL
-                others = [r.type for r in records if r is not best]
-                if others:
-                    why += f"; also recorded: {', '.join(sorted(set(others)))}"
-                used_rel = ReliabilityUsed(best.type, best.value, best.n, why, best.source)
+                n = best.n
+                why = f"{best.type} reliability {rel_txt}" + (f" (N = {n})" if n else " (N not stated)") + suffix
+                used_rel = ReliabilityUsed(best.type, best.value, n, why, best.source)
         rel_value = used_rel.value
         rel_type = used_rel.type
         if rel_value is not None and rel_txt is None:
             rel_txt = f"{rel_value:.2f}"
 
         # --- gates ----------------------------------------------------------------------
+        # every attribute measured, with its best credit (0 for a fit without credit: such an
+        # attribute counts for the job-relatedness gate but adds nothing to coverage)
         fits: dict[str, float] = {}
-        measured = set()
         for m in ins.measures:
             attribute = m.attribute
-            measured.add(attribute)
             credit = fit_credit.get(m.fit, 0.0)
-            if credit > fits.get(attribute, 0.0):
+            prev = fits.get(attribute)
+            if prev is None or credit > prev:
                 fits[attribute] = credit
-        at = sorted(i for a in measured for i in positions.get(a, ()))
-        if at:
-            g_rel = G("job_relatedness", True, f"measures required attribute(s): {', '.join([required[i] for i in at])}")
+        hits = [(i, credit) for attribute, credit in fits.items() for i in positions.get(attribute, ())]
+        if len(hits) > 1:
+            hits.sort()
+        if hits:
+            g_rel = G("job_relatedness", True, f"measures required attribute(s): {', '.join([required[i] for i, _ in hits])}")
         else:
             g_rel = G("job_relatedness", False, unrelated)
         studies = ins.validity
         if studies:
-            g_val = G("validity_evidence", True, f"{len(studies)} validity record(s), total N = {sum(s.n for s in studies)}")
+            g_val = G("validity_evidence", True, f"{len(studies)} validity record(s), total N = {n_all}")
         else:
             g_val = G("validity_evidence", False, "no validity study is recorded")
         if rel_value is None:
@@ -252,10 +285,11 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                  "reading_level": g_read, "time": g_time, "qualification": g_qual}
 
         # --- coverage -------------------------------------------------------------------
-        hits = sorted((i, credit) for attribute, credit in fits.items() for i in positions.get(attribute, ()))
         got = 0.0
         parts = list(zero_words)
         for i, credit in hits:
+            if not credit:
+                continue
             attribute, weight, _, words = requirements[i]
             got += weight * credit
             parts[i] = words.get(credit) or f"{attribute} {credit:g}x{weight:g}"
@@ -276,13 +310,12 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             v_val = None
             c_val = C("validity", None, None, text, val_map)
         else:
-            v_val = min(1.0, max(0.0, r / full_marks))
-            su = detail.studies_used
-            total_n = sum(s.n for s in su)
-            mean_r = getattr(detail.meta, "mean_r", None)
-            raw_text = f"conservative r = {r:.3f} (k = {len(su)}, N = {total_n}"
-            raw_text += f", mean r = {float(mean_r):.3f})" if mean_r is not None else ")"
-            if all(u.n < small for u in su):
+            x = r / full_marks
+            v_val = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0  # min(1.0, max(0.0, x))
+            mean_r = detail.meta.mean_r  # a float: the detail was synthesised above
+            raw_text = f"conservative r = {r:.3f} (k = {len(detail.studies_used)}, N = {total_n}"
+            raw_text += f", mean r = {mean_r:.3f})"
+            if all_small:
                 warnings.append(W("validity_small_samples",
                                   f"every relevant validity study has N < {small} (total N = {total_n})"))
             c_val = C("validity", v_val, r, raw_text, val_map)
@@ -293,7 +326,8 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             c_rb = C("reliability", None, None, "no reliability figure recorded", rel_map)
             warnings.append(W("no_reliability", "no reliability figure is recorded"))
         else:
-            v_rb = min(1.0, max(0.0, (rel_value - rel_zero) / rel_span))
+            x = (rel_value - rel_zero) / rel_span
+            v_rb = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
             n = used_rel.n
             c_rb = C("reliability", v_rb, rel_value, f"{rel_type} r = {rel_txt}" + (f" (N = {n})" if n else ""), rel_map)
             if rel_type not in _RETEST:
@@ -306,11 +340,14 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             c_norm = C("norms", None, None, "no norm group recorded", norm_map)
             warnings.append(W("no_norms", "no norm group is recorded"))
         else:
-            ages = [max(0, year - nm.year) for nm in norms]
-            if min(ages) > max_age:
-                warnings.append(W("norms_too_old", too_old))
             best_norm = None
-            for nm, age in zip(norms, ages):
+            youngest = None
+            for nm in norms:
+                age = year - nm.year
+                if not age > 0:  # max(0, age)
+                    age = 0
+                if youngest is None or age < youngest:
+                    youngest = age
                 occupation = nm.occupation
                 occ = occupations.get(occupation)
                 if occ is None:
@@ -318,10 +355,15 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                 if age > max_age:
                     value = 0.0
                 else:
-                    value = (min(1.0, max(0.0, 1.0 - age / max_age)) + scope_credit.get(nm.scope, 0.0)
-                             + min(1.0, sqrt(max(nm.n, 0) / full_size)) + occ_credit[occ]) / 4.0
+                    x = 1.0 - age / max_age
+                    size = nm.n
+                    size = sqrt((0 if 0 > size else size) / full_size)
+                    value = (((x if x < 1.0 else 1.0) if x > 0.0 else 0.0) + scope_credit.get(nm.scope, 0.0)
+                             + (size if size < 1.0 else 1.0) + occ_credit[occ]) / 4.0
                 if best_norm is None or (value, nm.n, nm.year) > (v_norm, best_norm.n, best_norm.year):
                     best_norm, v_norm, b_age, b_occ = nm, value, age, occ
+            if youngest > max_age:
+                warnings.append(W("norms_too_old", too_old))
             words = f"best group '{best_norm.key}': {b_age} years old, {best_norm.scope}, n = {best_norm.n}, occupation {b_occ}"
             if b_age > max_age:
                 words += older
@@ -342,7 +384,7 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             if ratio < floor:
                 warnings.append(W("impact_below_floor", f"expected impact ratio {ratio_txt} is below the policy floor "
                                   f"{floor_txt} at selection ratio {sr_txt}"))
-            v_fair = min(1.0, max(0.0, ratio))
+            v_fair = (ratio if ratio < 1.0 else 1.0) if ratio > 0.0 else 0.0
             c_fair = C("fairness", v_fair, ratio,
                        f"expected impact ratio {ratio_txt} at selection ratio {sr_txt} (d = {d_txt}, {sub.groups})", fair_map)
 
@@ -353,7 +395,8 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                 prac.append(1.0 if minutes <= 0 else 0.0)
             else:
                 x = minutes / budget
-                prac.append(0.0 if x > 1 else min(1.0, max(0.0, 1.0 - slope * x)))
+                x = 1.0 - slope * x if not x > 1 else 0.0
+                prac.append((x if x < 1.0 else 1.0) if x > 0.0 else 0.0)
             words.append(f"{min_words} of {budget_txt} min")
         if cost_budget is not None:
             cost = ins.cost_per_applicant
@@ -364,7 +407,8 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                     prac.append(1.0 if cost <= 0 else 0.0)
                 else:
                     x = cost / cost_budget
-                    prac.append(0.0 if x > 1 else min(1.0, max(0.0, 1.0 - slope * x)))
+                    x = 1.0 - slope * x if not x > 1 else 0.0
+                    prac.append((x if x < 1.0 else 1.0) if x > 0.0 else 0.0)
                 cur = f" {ins.currency}" if ins.currency else ""
                 words.append(f"cost {cost:g}{cur} of budget {cost_budget_txt}")
         if prac:
@@ -375,15 +419,28 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             v_prac = None
             c_prac = C("practicality", None, None, "no budget to compare against", prac_map)
 
-        values = (v_cov, v_val, v_rb, v_norm, v_fair, v_prac)
-        for i, code, text in missing:
-            if values[i] is None:
-                warnings.append(W(code, text))
-        score = 100.0 * sum([w * (v or 0.0) for w, v in zip(w_all, values)])
+        if v_cov is None or v_val is None or v_rb is None or v_norm is None or v_fair is None or v_prac is None:
+            values = (v_cov, v_val, v_rb, v_norm, v_fair, v_prac)
+            for i, code, text in missing:
+                if values[i] is None:
+                    warnings.append(W(code, text))
+        # the plain path's sum(), over the same products in the same order
+        score = 100.0 * sum((w_cov * (v_cov or 0.0), w_val * (v_val or 0.0), w_rb * (v_rb or 0.0),
+                             w_norm * (v_norm or 0.0), w_fair * (v_fair or 0.0), w_prac * (v_prac or 0.0)))
         components = {"coverage": c_cov, "validity": c_val, "reliability": c_rb,
                       "norms": c_norm, "fairness": c_fair, "practicality": c_prac}
         out.append((score, gates, components, warnings, detail, used_rel, ratio))
     return out
+
+
+def _reliability_plan(types: tuple) -> tuple | None:
+    """The preferred tier of these reliability types (gates._reliability_choice) and the
+    positions of its records; None when no type is in a preferred tier."""
+    tiers = [_TIER.get(t, _NO_TIER) for t in types]
+    t = min(tiers)
+    if t == _NO_TIER:
+        return None
+    return t, tuple([i for i, ti in enumerate(tiers) if ti == t])
 
 
 def _d(s) -> float:
