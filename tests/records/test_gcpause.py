@@ -59,3 +59,18 @@ def test_decorator_and_errors():
     except ValueError:
         pass
     assert gc.isenabled()
+
+
+def test_pausing_can_be_turned_off_for_a_program_that_defers_full_collections():
+    from vetting.records import gcpause
+
+    gcpause.set_pausing(False)
+    try:
+        with gc_pause():
+            assert gc.isenabled()  # young collections go on in small steps
+        assert gc.isenabled()
+    finally:
+        gcpause.set_pausing(True)
+    with gc_pause():
+        assert not gc.isenabled()
+    assert gc.isenabled()

@@ -16,6 +16,7 @@ from hypothesis import strategies as st
 from textual.widgets import DataTable, Markdown
 
 from vetting.appraisal import rank
+from vetting.records import gcpause
 from vetting.records.store import Store
 from vetting.records.synthetic import generate_catalogue
 from vetting.tui.screens.catalogue import CatalogueScreen, filter_rows, narrows
@@ -153,8 +154,10 @@ async def test_collector_settings_are_the_interpreters_again_after_the_interface
         assert isinstance(app.screen, CatalogueScreen) and app.screen.loaded
         assert gc.get_freeze_count() > 0  # what was loaded is left out of full collections
         assert gc.get_threshold()[2] > threshold[2]  # full collections wait for an idle moment
+        assert not gcpause._pausing  # so bulk work in workers need not switch the collector off
     assert gc.get_threshold() == threshold
     assert gc.get_freeze_count() == 0
+    assert gcpause._pausing
 
 
 # -- opening and leaving the results screens (issue 8) -------------------------------------

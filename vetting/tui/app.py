@@ -29,6 +29,7 @@ from textual.screen import Screen
 from textual.worker import active_worker
 from textual.worker_manager import WorkerManager
 
+from vetting.records import gcpause
 from vetting.tui.data import Data
 
 #: Results screens provided by other modules: name -> (module, class name).
@@ -297,6 +298,10 @@ class VettingApp(App[int]):
         """
         self._gc_threshold = gc.get_threshold()
         gc.set_threshold(self._gc_threshold[0], self._gc_threshold[1], FULL_COLLECTION_NEVER)
+        # with full collections deferred, the engine's bulk work (loading, ranking) need not
+        # switch the collector off: a pause ended with one long young collection, in the worker,
+        # holding the interpreter lock (the keys stalled for about 0.15 s after a ranking)
+        gcpause.set_pausing(False)
         self._last_input = time.monotonic()
         self._last_busy = self._last_input
         #: since when only the catalogue has been shown (None: something else is open)
@@ -364,6 +369,7 @@ class VettingApp(App[int]):
         threshold = getattr(self, "_gc_threshold", None)
         if threshold is not None:
             gc.set_threshold(*threshold)
+            gcpause.set_pausing(True)
         if self._heap_frozen:  # hand the frozen objects back to the collector
             gc.unfreeze()
             self._heap_frozen = False

@@ -355,7 +355,7 @@ class CompareScreen(Screen):
     #: rows added at once: the first batch fills a tall screen at once; the rest follow in
     #: batches, and keys are handled between batches (the table never freezes the keys)
     FIRST_ROWS = 120
-    BATCH_ROWS = 400
+    BATCH_ROWS = 200
 
     def _fill(self, cols: list[Col] | None = None, rows: list | None = None) -> None:
         table = self.query_one(DataTable)

@@ -128,7 +128,7 @@ class GapsScreen(Screen):
 
     #: rows added at once; the rest follow in batches with keys handled in between
     FIRST_ROWS = 120
-    BATCH_ROWS = 400
+    BATCH_ROWS = 200
 
     def _loaded(self, reports, job, rows: list | None = None) -> None:
         self.reports = reports
