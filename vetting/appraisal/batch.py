@@ -185,6 +185,80 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             ratios[k] = value
     details, sums = _validity(instruments, policy, ctx)
 
+    # Figures that depend on one value of an instrument and on the job, kept per value: the
+    # reliability type and figure, the reading grade, the minutes, the cost and currency, the
+    # impact ratio with its d and groups. A zero is never looked up (0.0 and -0.0 are equal
+    # keys but print differently); equal keys of other kinds give the same words and figures.
+    rel_figures: dict = {}
+    read_figures: dict = {}
+    time_figures: dict = {}
+    cost_figures: dict = {}
+    fair_figures: dict = {}
+
+    def reliability_figures(rel_type, rel_value):
+        # the figure in words, the reliability gate, the reliability component's value
+        rel_txt = f"{rel_value:.2f}"
+        if rel_value >= minimum:
+            gate = (True, f"{rel_type} reliability {rel_txt} >= policy minimum {min_txt}")
+        else:
+            gate = (False, f"{rel_type} reliability {rel_txt} < policy minimum {min_txt}")
+        x = (rel_value - rel_zero) / rel_span
+        out = rel_figures[rel_type, rel_value] = (rel_txt, *gate, (x if x < 1.0 else 1.0) if x > 0.0 else 0.0)
+        return out
+
+    def reading_figures(grade):
+        # the reading-level gate with both grades known
+        if grade <= limit:
+            out = (True, f"reading grade {grade:g} <= applicants' grade {limit_txt}")
+        else:
+            out = (False, f"reading grade {grade:g} > applicants' grade {limit_txt}")
+        read_figures[grade] = out
+        return out
+
+    def minutes_figures(minutes):
+        # the time gate (passed, reason, warning) and practicality's time part (value, words)
+        min_words = f"{minutes:g}"
+        if budget is None:
+            out = (True, f"passes by default: {min_words} min, the job has no time budget",
+                   "time not checked: the job has no time budget", None, None)
+        else:
+            if minutes <= budget:
+                gate = (True, f"{min_words} min <= budget {budget_txt} min", None)
+            else:
+                gate = (False, f"{min_words} min > budget {budget_txt} min", None)
+            if budget <= 0:
+                part = 1.0 if minutes <= 0 else 0.0
+            else:
+                x = minutes / budget
+                x = 1.0 - slope * x if not x > 1 else 0.0
+                part = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
+            out = (*gate, part, f"{min_words} of {budget_txt} min")
+        time_figures[minutes] = out
+        return out
+
+    def money_figures(cost, currency):
+        # practicality's cost part (value, words)
+        if cost_budget <= 0:
+            part = 1.0 if cost <= 0 else 0.0
+        else:
+            x = cost / cost_budget
+            x = 1.0 - slope * x if not x > 1 else 0.0
+            part = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
+        cur = f" {currency}" if currency else ""
+        out = cost_figures[cost, currency] = (part, f"cost {cost:g}{cur} of budget {cost_budget_txt}")
+        return out
+
+    def fairness_figures(ratio, d, groups):
+        # the warning below the floor (or None), the fairness value and words
+        ratio_txt = f"{ratio:.2f}"
+        warn = (f"expected impact ratio {ratio_txt} is below the policy floor {floor_txt} at selection ratio {sr_txt}"
+                if ratio < floor else None)
+        out = fair_figures[ratio, d, groups] = (
+            warn, (ratio if ratio < 1.0 else 1.0) if ratio > 0.0 else 0.0,
+            f"expected impact ratio {ratio_txt} at selection ratio {sr_txt} (d = {d:.2f}, {groups})",
+        )
+        return out
+
     out = []
     for ins, sub, ratio, detail, (n_all, total_n, all_small) in zip(instruments, worst, ratios, details, sums):
         warnings = []
@@ -204,6 +278,10 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                 t, cand = plan
                 if len(cand) == 1:
                     best = records[cand[0]]
+                elif len(cand) == 2:  # min(..., key=_reliability_order): the second only when smaller
+                    best, other = records[cand[0]], records[cand[1]]
+                    if (-(other.n or 0), other.value) < (-(best.n or 0), best.value):
+                        best = other
                 else:
                     best = min([records[i] for i in cand], key=_reliability_order)
                 others = tuple([r.type for r in records if r is not best]) if len(records) > 1 else ()
@@ -214,14 +292,19 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                         (_PREFERRED if t == 0 else _NEXT) + (_SEVERAL if len(cand) > 1 else "")
                         + (f"; also recorded: {', '.join(sorted(set(others)))}" if others else "")
                     )
-                rel_txt = f"{best.value:.2f}"
+                rel_type, rel_value = best.type, best.value
+                rc = rel_figures.get((rel_type, rel_value)) if rel_value else None
+                if rc is None:
+                    rc = reliability_figures(rel_type, rel_value)
+                rel_txt = rc[0]
                 n = best.n
-                why = f"{best.type} reliability {rel_txt}" + (f" (N = {n})" if n else " (N not stated)") + suffix
-                used_rel = ReliabilityUsed(best.type, best.value, n, why, best.source)
+                why = f"{rel_type} reliability {rel_txt}" + (f" (N = {n})" if n else " (N not stated)") + suffix
+                used_rel = ReliabilityUsed(rel_type, rel_value, n, why, best.source)
         rel_value = used_rel.value
         rel_type = used_rel.type
         if rel_value is not None and rel_txt is None:
-            rel_txt = f"{rel_value:.2f}"
+            rc = reliability_figures(rel_type, rel_value)
+            rel_txt = rc[0]
 
         # --- gates ----------------------------------------------------------------------
         # every attribute measured, with its best credit (0 for a fit without credit: such an
@@ -247,10 +330,8 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             g_val = G("validity_evidence", False, "no validity study is recorded")
         if rel_value is None:
             g_rb = G("reliability", False, no_rel_gate)
-        elif rel_value >= minimum:
-            g_rb = G("reliability", True, f"{rel_type} reliability {rel_txt} >= policy minimum {min_txt}")
         else:
-            g_rb = G("reliability", False, f"{rel_type} reliability {rel_txt} < policy minimum {min_txt}")
+            g_rb = G("reliability", rc[1], rc[2])
         grade = ins.reading_grade
         if grade is None or limit is None:
             missing_grade = "the material's reading grade" if grade is None else "the applicants' reading grade"
@@ -259,20 +340,18 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             text = f"reading level not checked: {missing_grade} unknown"
             g_read = G("reading_level", True, f"passes by default: {missing_grade} unknown", text)
             warnings.append(W("reading_level_not_checked", text))
-        elif grade <= limit:
-            g_read = G("reading_level", True, f"reading grade {grade:g} <= applicants' grade {limit_txt}")
         else:
-            g_read = G("reading_level", False, f"reading grade {grade:g} > applicants' grade {limit_txt}")
+            rd = read_figures.get(grade) if grade else None
+            if rd is None:
+                rd = reading_figures(grade)
+            g_read = G("reading_level", rd[0], rd[1])
         minutes = ins.minutes
-        min_words = f"{minutes:g}"
-        if budget is None:
-            g_time = G("time", True, f"passes by default: {min_words} min, the job has no time budget",
-                       "time not checked: the job has no time budget")
-            warnings.append(W("time_not_checked", "time not checked: the job has no time budget"))
-        elif minutes <= budget:
-            g_time = G("time", True, f"{min_words} min <= budget {budget_txt} min")
-        else:
-            g_time = G("time", False, f"{min_words} min > budget {budget_txt} min")
+        tm = time_figures.get(minutes) if minutes else None
+        if tm is None:
+            tm = minutes_figures(minutes)
+        g_time = G("time", tm[0], tm[1], tm[2])
+        if tm[2]:
+            warnings.append(W("time_not_checked", tm[2]))
         need = ins.user_qualification
         q = quals.get(need)
         if q is None:
@@ -326,8 +405,7 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             c_rb = C("reliability", None, None, "no reliability figure recorded", rel_map)
             warnings.append(W("no_reliability", "no reliability figure is recorded"))
         else:
-            x = (rel_value - rel_zero) / rel_span
-            v_rb = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
+            v_rb = rc[3]
             n = used_rel.n
             c_rb = C("reliability", v_rb, rel_value, f"{rel_type} r = {rel_txt}" + (f" (N = {n})" if n else ""), rel_map)
             if rel_type not in _RETEST:
@@ -379,38 +457,32 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             v_fair = c_fair.value
             warnings += w
         else:
-            d_txt = f"{sub.d:.2f}"
-            ratio_txt = f"{ratio:.2f}"
-            if ratio < floor:
-                warnings.append(W("impact_below_floor", f"expected impact ratio {ratio_txt} is below the policy floor "
-                                  f"{floor_txt} at selection ratio {sr_txt}"))
-            v_fair = (ratio if ratio < 1.0 else 1.0) if ratio > 0.0 else 0.0
-            c_fair = C("fairness", v_fair, ratio,
-                       f"expected impact ratio {ratio_txt} at selection ratio {sr_txt} (d = {d_txt}, {sub.groups})", fair_map)
+            d = sub.d
+            groups = sub.groups
+            fr = fair_figures.get((ratio, d, groups)) if ratio and d else None
+            if fr is None:
+                fr = fairness_figures(ratio, d, groups)
+            if fr[0]:
+                warnings.append(W("impact_below_floor", fr[0]))
+            v_fair = fr[1]
+            c_fair = C("fairness", v_fair, ratio, fr[2], fair_map)
 
         # --- practicality ---------------------------------------------------------------
-        prac, words = [], []
         if budget is not None:
-            if budget <= 0:
-                prac.append(1.0 if minutes <= 0 else 0.0)
-            else:
-                x = minutes / budget
-                x = 1.0 - slope * x if not x > 1 else 0.0
-                prac.append((x if x < 1.0 else 1.0) if x > 0.0 else 0.0)
-            words.append(f"{min_words} of {budget_txt} min")
+            prac, words = [tm[3]], [tm[4]]
+        else:
+            prac, words = [], []
         if cost_budget is not None:
             cost = ins.cost_per_applicant
             if cost is None:
                 warnings.append(W("cost_unknown", "the cost per applicant is not recorded"))
             else:
-                if cost_budget <= 0:
-                    prac.append(1.0 if cost <= 0 else 0.0)
-                else:
-                    x = cost / cost_budget
-                    x = 1.0 - slope * x if not x > 1 else 0.0
-                    prac.append((x if x < 1.0 else 1.0) if x > 0.0 else 0.0)
-                cur = f" {ins.currency}" if ins.currency else ""
-                words.append(f"cost {cost:g}{cur} of budget {cost_budget_txt}")
+                currency = ins.currency
+                cs = cost_figures.get((cost, currency)) if cost else None
+                if cs is None:
+                    cs = money_figures(cost, currency)
+                prac.append(cs[0])
+                words.append(cs[1])
         if prac:
             v_prac = sum(prac) / len(prac)
             c_prac = C("practicality", v_prac, v_prac, "; ".join(words), prac_map)
