@@ -42,6 +42,7 @@ _PREFERRED = ": a retest/alternate-form figure is preferred for selection use"
 _NEXT = ": no retest or alternate-form figure is recorded, so the next preferred kind is used"
 _SEVERAL = "; of several figures of this kind, the one from the largest sample (then the lower) is used"
 _RETEST = ("retest", "alternate")
+_PLAIN = (float, int)  # the kinds of number whose figures are kept per value (see appraise_all)
 
 
 def validity_details(instruments: list[Instrument], policy, ctx: comp.JobContext) -> list[ValidityDetail]:
@@ -187,8 +188,10 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
 
     # Figures that depend on one value of an instrument and on the job, kept per value: the
     # reliability type and figure, the reading grade, the minutes, the cost and currency, the
-    # impact ratio with its d and groups. A zero is never looked up (0.0 and -0.0 are equal
-    # keys but print differently); equal keys of other kinds give the same words and figures.
+    # impact ratio with its d and groups. Only non-zero plain numbers (float or int) are looked
+    # up: equal ones then give the same words and figures (an int is turned into the same
+    # float), while 0.0 and -0.0 are equal keys that print differently, and another kind of
+    # number (a numpy scalar, say) would give results of its own type.
     rel_figures: dict = {}
     read_figures: dict = {}
     time_figures: dict = {}
@@ -293,7 +296,7 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                         + (f"; also recorded: {', '.join(sorted(set(others)))}" if others else "")
                     )
                 rel_type, rel_value = best.type, best.value
-                rc = rel_figures.get((rel_type, rel_value)) if rel_value else None
+                rc = rel_figures.get((rel_type, rel_value)) if rel_value and type(rel_value) in _PLAIN else None
                 if rc is None:
                     rc = reliability_figures(rel_type, rel_value)
                 rel_txt = rc[0]
@@ -341,12 +344,12 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
             g_read = G("reading_level", True, f"passes by default: {missing_grade} unknown", text)
             warnings.append(W("reading_level_not_checked", text))
         else:
-            rd = read_figures.get(grade) if grade else None
+            rd = read_figures.get(grade) if grade and type(grade) in _PLAIN else None
             if rd is None:
                 rd = reading_figures(grade)
             g_read = G("reading_level", rd[0], rd[1])
         minutes = ins.minutes
-        tm = time_figures.get(minutes) if minutes else None
+        tm = time_figures.get(minutes) if minutes and type(minutes) in _PLAIN else None
         if tm is None:
             tm = minutes_figures(minutes)
         g_time = G("time", tm[0], tm[1], tm[2])
@@ -459,7 +462,7 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
         else:
             d = sub.d
             groups = sub.groups
-            fr = fair_figures.get((ratio, d, groups)) if ratio and d else None
+            fr = fair_figures.get((ratio, d, groups)) if ratio and d and type(d) in _PLAIN else None
             if fr is None:
                 fr = fairness_figures(ratio, d, groups)
             if fr[0]:
@@ -478,7 +481,7 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                 warnings.append(W("cost_unknown", "the cost per applicant is not recorded"))
             else:
                 currency = ins.currency
-                cs = cost_figures.get((cost, currency)) if cost else None
+                cs = cost_figures.get((cost, currency)) if cost and type(cost) in _PLAIN else None
                 if cs is None:
                     cs = money_figures(cost, currency)
                 prac.append(cs[0])
