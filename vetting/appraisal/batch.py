@@ -60,8 +60,10 @@ def _validity(instruments: list[Instrument], policy, ctx: comp.JobContext) -> tu
     criteria, families = ctx.criteria, ctx.families
     designs = comp.CRITERION_DESIGNS
     small = comp.SMALL_STUDY_N
+    not_criterion: dict = {}  # a design that gives no validity coefficient -> the reason
     splits = []
     sums = []
+    rs, ns, sizes = [], [], []  # the studies used, for the grouped engine call
     for instrument in instruments:
         used, excluded = [], []
         n_all = n_used = 0
@@ -71,7 +73,9 @@ def _validity(instruments: list[Instrument], policy, ctx: comp.JobContext) -> tu
             n_all += n
             design = s.design
             if design not in designs:
-                reason = f"{design} study: not a criterion-related validity coefficient"
+                reason = not_criterion.get(design)
+                if reason is None:
+                    reason = not_criterion[design] = f"{design} study: not a criterion-related validity coefficient"
             elif criteria is not None and (s.criterion is None or s.criterion.strip().lower() not in criteria):
                 reason = f"criterion '{s.criterion}' is not marked relevant for this job"
             elif families is not None and (s.job_family is None or s.job_family.strip().lower() not in families):
@@ -82,10 +86,13 @@ def _validity(instruments: list[Instrument], policy, ctx: comp.JobContext) -> tu
             elif n < 4:
                 reason = f"sample too small to use (N = {n})"
             else:
+                r_signed = s.r_signed
                 used.append(StudyUse(
-                    i, s.criterion, s.r, s.r_signed, n, s.job_family, design, s.source, True,
+                    i, s.criterion, s.r, r_signed, n, s.job_family, design, s.source, True,
                     "used (sign reversed: lower criterion is better)" if s.lower_is_better else "used",
                 ))
+                rs.append(r_signed)
+                ns.append(n)
                 n_used += n
                 if all_small and not n < small:
                     all_small = False
@@ -93,7 +100,10 @@ def _validity(instruments: list[Instrument], policy, ctx: comp.JobContext) -> tu
             excluded.append(StudyUse(i, s.criterion, s.r, s.r_signed, n, s.job_family, design, s.source, False, reason))
         splits.append((used, excluded))
         sums.append((n_all, n_used, all_small))
-    grouped = comp.synthesise([used for used, _ in splits])
+        if used:
+            sizes.append(len(used))
+    # components.synthesise's call, on the same figures in the same order
+    grouped = pv.grouped_validity(np.array(rs, dtype=float), np.array(ns, dtype=float), sizes) if sizes else None
     details = []
     if grouped is None:
         for used, excluded in splits:

@@ -220,10 +220,17 @@ class _Pending:
             alive = [(target, ins) for ref, ins in waiting if (target := ref()) is not None]
             instruments = [ins for _, ins in alive]
             with gc_pause():
-                puts = [put for _, put in _SLOTS.values()]
-                for (target, _), figures in zip(alive, appraise_all(job, instruments, weights, as_of, ctx)):
-                    for put, value in zip(puts, figures):
-                        put(target, value)
+                p_score, p_gates, p_components, p_warnings, p_validity, p_reliability, p_impact = (
+                    put for _, put in _SLOTS.values())
+                figures = appraise_all(job, instruments, weights, as_of, ctx)
+                for (target, _), (score, gates, components, warnings, detail, used, ratio) in zip(alive, figures):
+                    p_score(target, score)
+                    p_gates(target, gates)
+                    p_components(target, components)
+                    p_warnings(target, warnings)
+                    p_validity(target, detail)
+                    p_reliability(target, used)
+                    p_impact(target, ratio)
                     target._pending = None
             self.waiting = None
             self.job = self.ctx = None
@@ -231,7 +238,7 @@ class _Pending:
 
 _new_deferred = object.__new__
 _weak = weakref.ref
-_SLOTS = {
+_SLOTS = {  # in _DEFERRED_FIELDS order (fill() names them one by one)
     name: (InstrumentAppraisal.__dict__[name].__get__, InstrumentAppraisal.__dict__[name].__set__)
     for name in _DEFERRED_FIELDS
 }
