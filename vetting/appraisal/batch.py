@@ -203,10 +203,36 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
     # float), while 0.0 and -0.0 are equal keys that print differently, and another kind of
     # number (a numpy scalar, say) would give results of its own type.
     rel_figures: dict = {}
+    coverage_figures: dict = {}
     read_figures: dict = {}
     time_figures: dict = {}
     cost_figures: dict = {}
     fair_figures: dict = {}
+
+    def coverage_of(hits):
+        # for the required attributes measured ((position, credit) in the job's order): the
+        # job-relatedness reason, coverage's value and words, the critical attributes' warning
+        got = 0.0
+        parts = list(zero_words)
+        for i, credit in hits:
+            if not credit:
+                continue
+            attribute, weight, _, words = requirements[i]
+            got += weight * credit
+            parts[i] = words.get(credit) or f"{attribute} {credit:g}x{weight:g}"
+        warning = None
+        if critical:
+            credits = {required[i]: credit for i, credit in hits}
+            missing_critical = [a for a in critical if not credits.get(a)]
+            if missing_critical:
+                names = ", ".join(f"'{a}'" for a in missing_critical)
+                warning = f"critical attribute(s) not measured: {names}"
+        value = got / total if total > 0 else 0.0
+        out = coverage_figures[hits] = (
+            f"measures required attribute(s): {', '.join([required[i] for i, _ in hits])}", value,
+            f"{got:g} of {total_txt} weighted points ({'; '.join(parts)})", warning,
+        )
+        return out
 
     def reliability_figures(rel_type, rel_value):
         # the figure in words, the reliability gate, the reliability component's value
@@ -332,8 +358,12 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
         hits = [(i, credit) for attribute, credit in fits.items() for i in positions.get(attribute, ())]
         if len(hits) > 1:
             hits.sort()
+        hits = tuple(hits)
+        cv = coverage_figures.get(hits)
+        if cv is None:
+            cv = coverage_of(hits)
         if hits:
-            g_rel = G("job_relatedness", True, f"measures required attribute(s): {', '.join([required[i] for i, _ in hits])}")
+            g_rel = G("job_relatedness", True, cv[0])
         else:
             g_rel = G("job_relatedness", False, unrelated)
         studies = ins.validity
@@ -377,21 +407,10 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                  "reading_level": g_read, "time": g_time, "qualification": g_qual}
 
         # --- coverage -------------------------------------------------------------------
-        got = 0.0
-        parts = list(zero_words)
-        for i, credit in hits:
-            if not credit:
-                continue
-            attribute, weight, _, words = requirements[i]
-            got += weight * credit
-            parts[i] = words.get(credit) or f"{attribute} {credit:g}x{weight:g}"
-        if critical:
-            missing_critical = [a for a in critical if not fits.get(a)]
-            if missing_critical:
-                names = ", ".join(f"'{a}'" for a in missing_critical)
-                warnings.append(W("critical_attribute_not_measured", f"critical attribute(s) not measured: {names}"))
-        v_cov = got / total if total > 0 else 0.0
-        c_cov = C("coverage", v_cov, v_cov, f"{got:g} of {total_txt} weighted points ({'; '.join(parts)})", cov_map)
+        if cv[3]:
+            warnings.append(W("critical_attribute_not_measured", cv[3]))
+        v_cov = cv[1]
+        c_cov = C("coverage", v_cov, v_cov, cv[2], cov_map)
 
         # --- validity -------------------------------------------------------------------
         r = detail.conservative
