@@ -6,6 +6,8 @@ person would expect (common practice for a catalogue table, no published source)
 
 from __future__ import annotations
 
+import time
+
 from textual.widgets import DataTable, Input
 
 from vetting.appraisal.summary import summarise
@@ -369,9 +371,10 @@ async def test_down_then_enter_typed_at_once_opens_the_instrument(seeded_url, ap
 
 
 async def test_typing_waits_for_a_pause_but_clearing_shows_every_row_at_once(seeded_url, app_for, settle):
-    """Keystrokes are gathered for DEBOUNCE_SECONDS before the catalogue is filtered (a burst
-    of typing filters once); clearing the filter has nothing to wait for and shows every row
-    straight away. The pause is made long here so that only the clearing can show rows."""
+    """Keystrokes that follow a filtering within DEBOUNCE_SECONDS are gathered until the typing
+    pauses (a burst of typing filters once); clearing the filter has nothing to wait for and
+    shows every row straight away. The pause is made long here so that only the clearing can
+    show rows."""
     app = app_for(seeded_url)
     async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
@@ -395,3 +398,20 @@ async def test_typing_waits_for_a_pause_but_clearing_shows_every_row_at_once(see
         await pilot.press("backspace")
         await pilot.pause(0.1)
         assert screen._filter_timer is None and len(screen.shown) == 3
+
+
+async def test_the_first_key_after_a_pause_filters_at_once_and_the_next_ones_wait(seeded_url, app_for, settle):
+    app = app_for(seeded_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        screen = app.screen
+        screen.DEBOUNCE_SECONDS = 30.0
+        screen._filtered_at = time.monotonic() - 60  # the last filtering was long ago
+        await pilot.press("q")
+        await pilot.pause(0.1)
+        assert screen._filter_timer is None  # no wait
+        assert _titles(screen) == ["Tally Quick Numbers"]
+        await pilot.press("x")  # within the pause: gathered, not applied yet
+        await pilot.pause(0.1)
+        assert screen._filter_timer is not None
+        assert _titles(screen) == ["Tally Quick Numbers"] and screen._last_filter[0] == "q"

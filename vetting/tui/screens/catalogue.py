@@ -8,6 +8,7 @@ once; filtering works in memory on a lowercase text built once per row.
 from __future__ import annotations
 
 import threading
+import time
 from dataclasses import dataclass
 from typing import Any, Callable
 
@@ -199,7 +200,8 @@ class CatalogueScreen(Screen):
         Binding("down", "to_table", "To table", show=False, id="catalogue.down", tooltip="Move into the table"),
     ]
 
-    #: a pause this long in the typing applies the filter (keys typed faster are taken together)
+    #: the first key after a pause this long filters at once; keys typed faster after it are
+    #: taken together and applied when the typing pauses this long
     DEBOUNCE_SECONDS = 0.03
     #: the table holds at most this many rows (the best by the current sort); typing narrows
     #: the list. Sorting and filtering always work on every instrument, in memory.
@@ -216,6 +218,8 @@ class CatalogueScreen(Screen):
         self.expected_total = 0
         self.first_page_shown = False
         self._filter_timer = None
+        #: when the filter was last applied (time.monotonic)
+        self._filtered_at = 0.0
         self._ordered: list[CatalogueRow] = []
         #: the sort keys and orders of `rows` (replaced whenever `rows` is)
         self._sort_keys: SortKeys | None = None
@@ -339,11 +343,17 @@ class CatalogueScreen(Screen):
 
     @on(Input.Changed, "#filter")
     def _filter_changed(self, event: Input.Changed) -> None:
-        if self._filter_timer is not None:
+        waiting = self._filter_timer is not None
+        if waiting:
             self._filter_timer.stop()
             self._filter_timer = None
         if not event.value:
             # cleared (Escape, or the last character deleted): no more typing to wait for
+            self._apply_filter()
+            return
+        if not waiting and time.monotonic() - self._filtered_at >= self.DEBOUNCE_SECONDS:
+            # the first key after a pause filters at once; the keys that follow it within
+            # DEBOUNCE_SECONDS are taken together when the typing pauses
             self._apply_filter()
             return
         self._filter_timer = self.set_timer(self.DEBOUNCE_SECONDS, self._apply_filter)
@@ -364,6 +374,7 @@ class CatalogueScreen(Screen):
         shown = filter_rows(base, text)
         self._last_filter = (text, shown)
         self._fill(shown)
+        self._filtered_at = time.monotonic()
 
     def _fill(self, shown: list[CatalogueRow]) -> None:
         table = self.query_one(DataTable)
