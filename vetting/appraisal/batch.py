@@ -3,16 +3,23 @@
 `appraise_all` gives, for each instrument, exactly what `ranking._appraisal` gives it (the gates
 with their reasons, the six components with their words, the warnings, the validity synthesis,
 the reliability used and the expected impact ratio, then the score): the same rules, the same
-arithmetic in the same order and the same sentences. It only does once per ranking what does
-not depend on the instrument (the job's limits and budgets in words, the policy's minimum, the
-qualification gate of each level, the occupation of each norm group, the words of each
-synthesis rule), works out each instrument's reliability choice, worst subgroup difference and
-figures in words once where several gates and components share them, and writes every result
-in one function instead of one call per gate and component. Uncommon cases (a reliability type
-outside the preferred tiers, an unknown selection ratio) take the plain functions themselves.
-tests/appraisal/test_batch_appraisal.py pins every field, to the bit, against the plain path.
-"""
+arithmetic in the same order and the same sentences. What it saves:
 
+- what depends only on the job is worked out once per ranking (its limits, budgets and policy
+  minimum in words, the qualification gate of each level, each norm occupation's match, the
+  words of each synthesis rule and of each reliability choice's reason);
+- what depends on one value of an instrument and on the job is kept per value (reliability type
+  and figure, reading grade, minutes, cost, impact ratio with its d), and coverage with the
+  job-relatedness reason per set of required attributes measured (most instruments measure
+  none of a job's attributes);
+- each instrument's reliability choice, worst subgroup difference and study totals are worked
+  out once where several gates and components use them, and everything is written in one
+  function instead of one call per gate and component.
+
+Uncommon cases (a reliability type outside the preferred tiers, an unknown selection ratio)
+take the plain functions themselves. tests/appraisal/test_batch_appraisal.py pins every field,
+to the bit, against the plain path.
+"""
 from __future__ import annotations
 
 import datetime as dt
