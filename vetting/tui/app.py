@@ -53,7 +53,7 @@ FULL_COLLECTION_AFTER = 25
 FULL_COLLECTION_AFTER_OPEN = 200
 IDLE_SECONDS = 5.0
 IDLE_CHECK_SECONDS = 1.0
-#: the editors are built ahead once no key has been pressed for this long (on the catalogue)
+#: the instrument editor is built ahead once no key has been pressed for this long (on the catalogue)
 PREBUILD_QUIET_SECONDS = 0.5
 
 #: the stylesheets of the screens in this package and the results screens (see CSS_PATH)
@@ -206,7 +206,7 @@ class VettingApp(App[int]):
         #: a screen was opened since the last full collection on the catalogue
         self._screen_closed = False
         self._default_job_started = False
-        #: the editors are to be built ahead at the next quiet moment (set after the warm-up)
+        #: the instrument editor is to be built ahead at the next quiet moment (set after the warm-up)
         self._prebuild_wanted = False
 
     # -- lifecycle ---------------------------------------------------------------------------
@@ -505,7 +505,7 @@ class VettingApp(App[int]):
         self.push_screen(editor)
 
     def _prebuild_when_quiet(self) -> None:
-        """Build the editors ahead (once, see `prebuild_editors`) when the catalogue alone is
+        """Build the editor ahead (once, see `prebuild_editors`) when the catalogue alone is
         shown and no key has been pressed for PREBUILD_QUIET_SECONDS: never in a burst of typing."""
         if not self._prebuild_wanted or not self.at_rest():
             return
@@ -515,25 +515,24 @@ class VettingApp(App[int]):
         self.prebuild_editors()
 
     def prebuild_editors(self) -> None:
-        """Build the instrument and job editors' forms ahead of use, unseen, while the user
-        reads the catalogue (called once, at rest, after the warm-up imports): the first
-        record opened then only refills them (see `_open_editor`). Each editor is pushed and
-        popped in the same turn, so it is never drawn and takes no key; it builds its form,
-        for a new record, in its own turns afterwards."""
+        """Build the instrument editor's form ahead of use, unseen, while the user reads the
+        catalogue (called once, at rest, after the warm-up imports): the first instrument opened
+        then only refills it (see `_open_editor`). The editor is pushed and popped in the same
+        turn, so it is never drawn and takes no key; it builds its form, for a new record, in
+        its own turns afterwards. (The job editor's first section is small: built ahead, its
+        first showing took as long as building it when first opened, so it is built then.)"""
         if not self.at_rest():
-            return  # something else is open: the editors are built when first used
+            return  # something else is open: the editor is built when first used
         from vetting.tui.screens.instrument import InstrumentEditor
-        from vetting.tui.screens.job import JobEditor
 
-        for cls in (InstrumentEditor, JobEditor):
-            name = _editor_name(cls)
-            if self.is_screen_installed(name):
-                continue
-            editor = cls(None)
-            editor.unseen = True
-            self.install_screen(editor, name)
-            self.push_screen(editor)
-            self.pop_screen()
+        name = _editor_name(InstrumentEditor)
+        if self.is_screen_installed(name):
+            return
+        editor = InstrumentEditor(None)
+        editor.unseen = True
+        self.install_screen(editor, name)
+        self.push_screen(editor)
+        self.pop_screen()
 
     # -- looks -------------------------------------------------------------------------------
 
