@@ -52,6 +52,17 @@ _RETEST = ("retest", "alternate")
 _PLAIN = (float, int)  # the kinds of number whose figures are kept per value (see appraise_all)
 
 
+
+def _budget_part(value: float, budget: float, slope: float) -> float:
+    """Practicality's part for `value` (minutes or cost) against `budget`: the plain form's
+    clip(1 - slope x value / budget, 0, 1), written with the same comparisons (nan and -0.0
+    give 0, as there)."""
+    if budget <= 0:
+        return 1.0 if value <= 0 else 0.0
+    x = value / budget
+    x = 1.0 - slope * x if not x > 1 else 0.0
+    return (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
+
 def validity_details(instruments: list[Instrument], policy, ctx: comp.JobContext) -> list[ValidityDetail]:
     """`components.validity_details` with the study choice written inline (the same reasons,
     the same grouped engine call, each detail made once with its figures)."""
@@ -272,24 +283,13 @@ def appraise_all(job: Job, instruments: list[Instrument], weights: dict[str, flo
                 gate = (True, f"{min_words} min <= budget {budget_txt} min", None)
             else:
                 gate = (False, f"{min_words} min > budget {budget_txt} min", None)
-            if budget <= 0:
-                part = 1.0 if minutes <= 0 else 0.0
-            else:
-                x = minutes / budget
-                x = 1.0 - slope * x if not x > 1 else 0.0
-                part = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
-            out = (*gate, part, f"{min_words} of {budget_txt} min")
+            out = (*gate, _budget_part(minutes, budget, slope), f"{min_words} of {budget_txt} min")
         time_figures[minutes] = out
         return out
 
     def money_figures(cost, currency):
         # practicality's cost part (value, words)
-        if cost_budget <= 0:
-            part = 1.0 if cost <= 0 else 0.0
-        else:
-            x = cost / cost_budget
-            x = 1.0 - slope * x if not x > 1 else 0.0
-            part = (x if x < 1.0 else 1.0) if x > 0.0 else 0.0
+        part = _budget_part(cost, cost_budget, slope)
         cur = f" {currency}" if currency else ""
         out = cost_figures[cost, currency] = (part, f"cost {cost:g}{cur} of budget {cost_budget_txt}")
         return out
