@@ -273,30 +273,3 @@ async def test_a_long_value_shows_its_start_as_in_a_form_built_new(seeded_url, a
         assert title.value.startswith("Calm Index Inventory, long form")
         assert title.cursor_position == len(title.value)
         assert title.scroll_offset.x == 0  # the start shown, not the end
-
-
-async def test_the_key_line_greys_a_key_in_place_when_only_its_state_changes(seeded_url, app_for, settle):
-    """Add entry is greyed on a section of one record and not on a list: the key line changes
-    that key's state in place, without building its keys again."""
-    from textual.widgets._footer import FooterKey
-
-    app = app_for(seeded_url)
-    async with app.run_test(size=(120, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
-
-        def add_key():
-            return next(k for k in editor.query(FooterKey) if k.action == "add_entry")
-
-        before = list(editor.query(FooterKey))
-        assert add_key().has_class("-disabled")  # the description is one record
-        await pilot.press("ctrl+o")  # reliability: a list
-        await settle(pilot)
-        assert not add_key().has_class("-disabled") and not add_key()._disabled
-        assert list(editor.query(FooterKey)) == before  # the same keys, not rebuilt
-        await pilot.press("ctrl+t")  # back to the description
-        await settle(pilot)
-        assert add_key().has_class("-disabled") and add_key()._disabled
-        assert list(editor.query(FooterKey)) == before

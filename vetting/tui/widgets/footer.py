@@ -3,16 +3,14 @@
 Textual's Footer rebuilds its key widgets every time the screen says its bindings may have
 changed, which happens on every focus change and several times while a screen opens (eleven
 rebuilds, each followed by a layout pass, when the instrument editor opened). This one waits
-for the screen to settle (one rebuild for a burst of signals), skips the rebuild when the
-keys it would show are the ones already shown, and greys or ungreys a key in place when only
-keys' enabled states changed. What it shows is Textual's Footer, unchanged.
+for the screen to settle (one rebuild for a burst of signals) and skips the rebuild when the
+keys it would show are the ones already shown. What it shows is Textual's Footer, unchanged.
 """
 
 from __future__ import annotations
 
 from textual.screen import Screen
 from textual.widgets import Footer as _TextualFooter
-from textual.widgets._footer import FooterKey
 
 
 class Footer(_TextualFooter):
@@ -53,35 +51,8 @@ class Footer(_TextualFooter):
         shown = self._keys_shown()
         if shown == self._shown:
             return
-        if self._shown is not None and self._enable_in_place(self._shown, shown):
-            self._shown = shown
-            return
         self._shown = shown
         await self.recompose()
-
-    def _enable_in_place(self, before: tuple, after: tuple) -> bool:
-        """When only keys' enabled states changed (an editor's "Add entry" on a section with or
-        without a list), grey or ungrey the keys shown instead of building them all again (a
-        rebuild costs a layout and a paint after the screen's own). Returns False (nothing
-        done) when anything else changed or a key cannot be matched."""
-        def without_state(shown: tuple) -> tuple:
-            keys, palette, compact = shown
-            return tuple(k[:4] + k[5:] for k in keys), palette, compact
-
-        if without_state(before) != without_state(after):
-            return False
-        enabled: dict[str, bool] = {}
-        for key, _display, _description, action, state, _tooltip, _group in after[0]:
-            enabled.setdefault(action, bool(state))  # the footer shows an action's first binding
-        keys = [k for k in self.query(FooterKey) if not k.has_class("-command-palette")]
-        if any(k.action not in enabled or not hasattr(k, "_disabled") for k in keys):
-            return False
-        for k in keys:
-            off = not enabled[k.action]
-            if k._disabled != off:
-                k._disabled = off  # what the key checks when clicked (Textual's FooterKey)
-                k.set_class(off, "-disabled")
-        return True
 
 
 __all__ = ["Footer"]
