@@ -13,10 +13,10 @@ from typing import Any
 
 from textual import work
 from textual.app import ComposeResult
-from textual.widget import AwaitMount
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.screen import Screen
+from textual.widget import AwaitMount
 from textual.widgets import Static, TabbedContent, TabPane
 
 from vetting.tui.widgets.footer import Footer
@@ -215,9 +215,10 @@ class EditorScreen(Screen):
             await self._empty_sections(keep=first)
             pane = tabs.get_pane(first)
             self._initial_by_pane[first] = ()  # building
-            if not self._refill_pane(pane, self._builders[first]()):
+            fresh = self._builders[first]()  # not mounted: its contents, or itself if need be
+            if not self._refill_pane(pane, fresh):
                 await pane.remove_children()
-                await pane.mount(self._section(self._builders[first]()))
+                await pane.mount(self._section(fresh))
             if not self.lazy():
                 for pane_id in list(self._builders)[1:]:
                     await self.build_pane(pane_id)
