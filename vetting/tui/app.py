@@ -272,11 +272,14 @@ class VettingApp(App[int]):
                 importlib.import_module(name)
             except Exception:  # a missing or broken module reports itself when its key is used
                 pass
-        self.call_from_thread(self._freeze)
+        self.call_from_thread(self._warmed_up)
 
-    def _freeze(self) -> None:
+    def _warmed_up(self) -> None:
         self._prebuild_wanted = True
         self._prebuild_when_quiet()
+        self._freeze()
+
+    def _freeze(self) -> None:
         if not self._heap_frozen:
             self._heap_frozen = True
             gc.freeze()
