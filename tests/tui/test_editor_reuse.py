@@ -29,12 +29,17 @@ def _message(field: RuleField) -> str:
     return ""
 
 
+async def _open(app, pilot, settle, opener: str, key: str | None):
+    """Open `key` with app.<opener> (open_instrument or open_job), wait, and return the screen."""
+    getattr(app, opener)(key)
+    await settle(pilot)
+    return app.screen
+
+
 async def _closed_editor(app, pilot, settle) -> InstrumentEditor:
     """The instrument editor, opened on calm-index and closed again (kept for the next)."""
     await settle(pilot)
-    app.open_instrument("calm-index")
-    await settle(pilot)
-    editor = app.screen
+    editor = await _open(app, pilot, settle, "open_instrument", "calm-index")
     assert isinstance(editor, InstrumentEditor)
     await pilot.press("escape")
     await settle(pilot)
@@ -67,8 +72,7 @@ async def test_editors_are_built_ahead_while_the_catalogue_rests(seeded_url, app
         assert spare.query_one(".description", RecordBlock)  # its form is built, unseen
         assert isinstance(app.screen, CatalogueScreen)  # and the catalogue never left
         assert not app.is_screen_installed("editor:JobEditor")  # built when first opened
-        app.open_instrument("ledger-scan")
-        await settle(pilot)
+        await _open(app, pilot, settle, "open_instrument", "ledger-scan")
         assert app.screen is spare
         assert _field(spare, ".description", "title").text == "Ledger Scan Checking Task"
         assert _field(spare, ".description", "key").input.disabled
@@ -79,9 +83,7 @@ async def test_the_next_instrument_shows_its_own_values_and_nothing_left_over(se
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
         await settle(pilot)
-        app.open_instrument("ledger-scan")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open(app, pilot, settle, "open_instrument", "ledger-scan")
         assert isinstance(editor, InstrumentEditor)
         # leave a broken rule, a shown section and unsaved text behind
         minutes = _field(editor, ".description", "minutes")
@@ -97,8 +99,7 @@ async def test_the_next_instrument_shows_its_own_values_and_nothing_left_over(se
         await settle(pilot)
         assert isinstance(app.screen, CatalogueScreen)
 
-        app.open_instrument("tally-quick")
-        await settle(pilot)
+        await _open(app, pilot, settle, "open_instrument", "tally-quick")
         assert app.screen is editor  # the same form, refilled
         desc = ".description"
         assert _field(editor, desc, "key").text == "tally-quick"
@@ -128,9 +129,7 @@ async def test_a_new_instrument_after_a_stored_one_starts_blank(seeded_url, app_
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
         await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open(app, pilot, settle, "open_instrument", "tally-quick")
         await pilot.press("escape")
         await settle(pilot)
         await pilot.press("ctrl+n")
@@ -209,8 +208,7 @@ async def test_going_elsewhere_before_the_record_is_read_does_not_show_it(seeded
         monkeypatch.undo()
         await pilot.press("f2")
         await settle(pilot)
-        app.open_instrument("tally-quick")  # still usable
-        await settle(pilot)
+        await _open(app, pilot, settle, "open_instrument", "tally-quick")  # still usable
         assert app.screen is editor
         assert _field(editor, ".description", "title").text == "Tally Quick Numbers"
 
@@ -219,16 +217,13 @@ async def test_the_job_editor_refilled_for_a_new_job_builds_every_section(seeded
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
         await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open(app, pilot, settle, "open_job", "claims-clerk")
         assert isinstance(editor, JobEditor)
         assert _field(editor, ".job-profile", "title").text == "Claims clerk"
         assert not editor.built("requirements")  # a stored job: built when shown
         await pilot.press("escape")
         await settle(pilot)
-        app.open_job(None)
-        await settle(pilot)
+        await _open(app, pilot, settle, "open_job", None)
         assert app.screen is editor
         key = _field(editor, ".job-profile", "key")
         assert not key.input.disabled and key.text == ""
@@ -240,8 +235,7 @@ async def test_the_job_editor_refilled_for_a_new_job_builds_every_section(seeded
         assert "defaults" in str(editor.query_one("#policy-state").render())
         await pilot.press("escape")
         await settle(pilot)
-        app.open_job("claims-clerk")
-        await settle(pilot)
+        await _open(app, pilot, settle, "open_job", "claims-clerk")
         assert app.screen is editor
         assert _field(editor, ".job-profile", "title").text == "Claims clerk"
         assert _field(editor, ".job-profile", "key").input.disabled
@@ -261,13 +255,10 @@ async def test_a_long_value_shows_its_start_as_in_a_form_built_new(seeded_url, a
     app = app_for(seeded_url)
     async with app.run_test(size=(80, 24)) as pilot:
         await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open(app, pilot, settle, "open_instrument", "tally-quick")
         await pilot.press("escape")
         await settle(pilot)
-        app.open_instrument("calm-index")
-        await settle(pilot)
+        await _open(app, pilot, settle, "open_instrument", "calm-index")
         assert app.screen is editor
         title = _field(editor, ".description", "title").input
         assert title.value.startswith("Calm Index Inventory, long form")

@@ -77,6 +77,11 @@ def _generated_url(tmp_path, n: int) -> str:
     return url
 
 
+def _first_job(store: Store):
+    """The job the interface makes current at start (the first by title)."""
+    return min(store.jobs(), key=lambda j: j.title.lower())
+
+
 async def _open(pilot, settle, name: str, job: str) -> object:
     await settle(pilot)
     pilot.app.current_job = job
@@ -88,7 +93,7 @@ async def _open(pilot, settle, name: str, job: str) -> object:
 async def test_long_ranking_is_added_in_batches_and_ends_as_the_engines(tmp_path, app_for, settle):
     url = _generated_url(tmp_path, 300)  # more rows than the first batch and one more batch
     with Store.open(url) as store:
-        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+        job = _first_job(store)
         expected = rank(job, store.instruments(), draws=2000, seed=0, as_of=TODAY)
     app = app_for(url)
     async with app.run_test(size=(140, 40)) as pilot:
@@ -123,7 +128,7 @@ async def test_long_ranking_is_added_in_batches_and_ends_as_the_engines(tmp_path
 async def test_long_gaps_list_is_added_in_batches_in_title_order(tmp_path, app_for, settle):
     url = _generated_url(tmp_path, 300)
     with Store.open(url) as store:
-        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+        job = _first_job(store)
         titles = [i.key for i in sorted(store.instruments(), key=lambda i: i.title.lower())]
     app = app_for(url)
     async with app.run_test(size=(140, 40)) as pilot:
@@ -137,7 +142,7 @@ async def test_long_gaps_list_is_added_in_batches_in_title_order(tmp_path, app_f
 async def test_memo_preview_of_a_large_catalogue_is_cut(tmp_path, app_for, settle):
     url = _generated_url(tmp_path, 150)
     with Store.open(url) as store:
-        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+        job = _first_job(store)
     app = app_for(url)
     async with app.run_test(size=(120, 40)) as pilot:
         screen = await _open(pilot, settle, "memo", job.key)
@@ -407,7 +412,7 @@ async def test_memo_preview_of_1000_instruments_is_one_widget_per_table_and_list
 
     url = _generated_url(tmp_path, 1000)
     with Store.open(url) as store:
-        job = sorted(store.jobs(), key=lambda j: j.title.lower())[0]
+        job = _first_job(store)
     app = app_for(url)
     async with app.run_test(size=(160, 48)) as pilot:
         screen = await _open(pilot, settle, "memo", job.key)
