@@ -264,3 +264,67 @@ async def test_a_long_value_shows_its_start_as_in_a_form_built_new(seeded_url, a
         assert title.value.startswith("Calm Index Inventory, long form")
         assert title.cursor_position == len(title.value)
         assert title.scroll_offset.x == 0  # the start shown, not the end
+
+
+async def test_a_section_shows_the_next_records_values_whatever_their_number(seeded_url, app_for, settle):
+    """A list section shown for one record and then for the next, in the editor kept between
+    them, holds the next record's records: as many as it has (more or fewer than before), none
+    of the earlier ones, numbered from 1. A broken value thrown away with the earlier record
+    plays no part in saving the next."""
+    app = app_for(seeded_url)
+
+    def values(editor) -> list[str]:
+        return [b.fields["value"].text for b in editor.query_one("#list-reliability", RecordList).blocks]
+
+    def titles(editor) -> list[str]:
+        blocks = editor.query_one("#list-reliability", RecordList).blocks
+        return [str(b.query_one(".block-title").render()) for b in blocks]
+
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        editor = await _open(app, pilot, settle, "open_instrument", "tally-quick")
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert values(editor) == ["0.88", "0.81"]
+        first = editor.query_one("#list-reliability", RecordList).blocks[0].fields["value"]
+        await _type_into(pilot, first, "1.3")
+        assert first.error
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, Confirm)
+        await pilot.press("y")
+        await settle(pilot)
+
+        await _open(app, pilot, settle, "open_instrument", "ledger-scan")
+        assert app.screen is editor and not editor.built("reliability")
+        assert not editor.is_dirty() and editor.problems() == []
+        await _type_into(pilot, _field(editor, ".description", "minutes"), "36")
+        await pilot.press("f9")  # saved without showing the list: the thrown-away 1.3 plays no part
+        await settle(pilot)
+        assert "Saved" in str(editor.query_one("#banner").render())
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert values(editor) == ["0.79"] and titles(editor) == ["Reliability 1"]
+        block = editor.query_one("#list-reliability", RecordList).blocks[0]
+        assert block.fields["n"].text == "150" and block.fields["value"].error is None
+        assert not editor.is_dirty()
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, CatalogueScreen)  # nothing changed: no question
+
+        await _open(app, pilot, settle, "open_instrument", "tally-quick")  # two again
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert values(editor) == ["0.88", "0.81"] and titles(editor) == ["Reliability 1", "Reliability 2"]
+        await pilot.press("escape")
+        await settle(pilot)
+
+        await _open(app, pilot, settle, "open_instrument", "calm-index")  # none
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        assert values(editor) == []
+        assert editor.query_one("#list-reliability", RecordList).query_one(".list-empty").display
+    with Store.open(seeded_url) as store:
+        saved = store.instrument("ledger-scan")
+        assert saved.minutes == 36
+        assert [(r.value, r.n) for r in saved.reliability] == [(0.79, 150)]

@@ -308,3 +308,23 @@ async def test_the_label_shows_a_broken_rule_by_weight_as_well_as_colour(db_url,
         await _type_into(pilot, minutes, "30")
         assert not minutes.has_class("-invalid") and not _bold(minutes.render())
         assert not minutes.query_one(".field-message").display
+
+
+async def test_add_entry_in_a_section_of_one_record_says_why_nothing_is_added(db_url, app_for, settle):
+    """"Add entry" stays in the key line in every section (greying it when the section
+    changed rebuilt the key line); in the description, which holds one record, it explains
+    and adds nothing, and in a list section it adds a record."""
+    app = app_for(db_url)
+    async with app.run_test(size=(80, 24)) as pilot:
+        editor = await _open_new(pilot, settle)
+        assert editor.check_action("add_entry", ()) is True
+        blocks_before = len(editor.query(RecordBlock))
+        await pilot.press("ctrl+n")
+        await settle(pilot)
+        assert any("holds one record" in str(n.message) for n in app._notifications)
+        assert len(editor.query(RecordBlock)) == blocks_before
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        await pilot.press("ctrl+n")
+        await settle(pilot)
+        assert len(editor.query_one("#list-reliability", RecordList).blocks) == 1

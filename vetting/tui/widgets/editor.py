@@ -333,6 +333,15 @@ class EditorScreen(Screen):
         self.focus_first_input()
         self.refresh_bindings()
 
+    def _neighbour(self, step: int) -> str | None:
+        """The section `step` places from the one shown (wrapping round), or None."""
+        tabs = self.query_one("#sections", TabbedContent)
+        ids = [pane.id for pane in tabs.query(TabPane) if pane.id]
+        if not ids:
+            return None
+        index = ids.index(tabs.active) if tabs.active in ids else 0
+        return ids[(index + step) % len(ids)]
+
     def focus_first_input(self) -> None:
         pane = self.current_pane()
         if pane is None:
@@ -401,8 +410,9 @@ class EditorScreen(Screen):
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
         if action in {"save", "add_entry", "remove_entry", "next_section", "previous_section"} and not self.ready:
             return None
-        if action == "add_entry" and self._current_list() is None:
-            return None
+        # "Add entry" is not greyed in a section of one record (pressed there, it says why
+        # nothing is added): greying it when the section changed rebuilt the key line, a
+        # layout and paint of their own after the section's
         return True
 
     def _current_list(self) -> RecordList | None:
@@ -456,11 +466,9 @@ class EditorScreen(Screen):
         if not self.ready:
             return
         tabs = self.query_one("#sections", TabbedContent)
-        ids = [pane.id for pane in tabs.query(TabPane)]
-        if not ids:
+        target = self._neighbour(step)
+        if target is None:
             return
-        index = ids.index(tabs.active) if tabs.active in ids else 0
-        target = ids[(index + step) % len(ids)]
         # build the section while it is still hidden, then show it with the cursor in its first
         # field: one layout and paint (showing the empty section first cost another)
         with self.app.batch_update():
