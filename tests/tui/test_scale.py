@@ -476,7 +476,7 @@ def test_a_folded_table_is_drawn_once_per_width_and_as_rich_draws_it():
 def test_the_gathered_records_are_let_go_in_steps_without_changing_anything():
     import weakref
 
-    from vetting.tui.screens.memo import drop_in_steps, items_of
+    from vetting.tui.data import drop_in_steps, items_of
 
     class Record:
         pass

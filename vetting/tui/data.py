@@ -180,3 +180,44 @@ class Data:
 
     def lock_policy(self, job_key: str) -> Policy:
         return self.store.lock_policy(job_key)
+
+
+# -- letting go of many records ----------------------------------------------------------------
+#
+# Freeing thousands of records at once (their last reference dropped in a worker) is one chain of
+# deallocations in C that holds the interpreter, and so the interface's keys, for as long as it
+# runs: about 100-150 ms at 10,000 instruments. The workers hand what they are done with to
+# `drop_in_steps` instead.
+
+
+def items_of(data) -> list:
+    """The items of the lists, tuples and dicts `data` holds, and of those held by its
+    attributes one level down (the ranking's results), in a list of our own.
+
+    Freeing the memo's gathered records all at once (their last reference dropped, at 10,000
+    instruments) is one chain of deallocations in C that holds the interpreter for about 150 ms,
+    so the interface's keys wait although the work is in a thread. Holding the items here lets
+    the caller drop `data` (its containers then go at once, cheaply) and hand the items to
+    `drop_in_steps`. Nothing is changed: an item still referred to elsewhere stays alive.
+    """
+    held: list = []
+
+    def take(value, depth: int) -> None:
+        if isinstance(value, (list, tuple)):
+            held.extend(value)
+        elif isinstance(value, dict):
+            held.extend(value.values())
+        elif depth and hasattr(value, "__dict__") and not isinstance(value, type):
+            for inner in vars(value).values():
+                take(inner, depth - 1)
+
+    for value in vars(data).values():
+        take(value, 1)
+    return held
+
+
+def drop_in_steps(held: list, step: int = 200) -> None:
+    """Empty `held` from the end, `step` items at a time: between steps the interpreter can
+    switch to the interface's thread."""
+    while held:
+        del held[-step:]

@@ -106,6 +106,7 @@ class GapsScreen(Screen):
     def load(self) -> None:
         from vetting.appraisal import gap_report
         from vetting.records.gcpause import gc_pause
+        from vetting.tui.data import drop_in_steps
 
         try:
             store = store_of(self, self.store_url)
@@ -114,8 +115,9 @@ class GapsScreen(Screen):
             # no collection in the middle of this bulk work (it would hold the interface's keys
             # for as long as it runs; see vetting.records.gcpause)
             with gc_pause():
-                reports = [gap_report(inst, job=job, as_of=day)
-                           for inst in sorted(store.instruments(), key=lambda i: i.title.lower())]
+                instruments = sorted(store.instruments(), key=lambda i: i.title.lower())
+                reports = [gap_report(inst, job=job, as_of=day) for inst in instruments]
+                drop_in_steps(instruments)  # not all at once: that held the keys (see drop_in_steps)
         except Exception as exc:
             self.app.call_from_thread(self._failed, exc)
             return

@@ -27,6 +27,7 @@ from textual.widgets import Markdown, ProgressBar, Static
 from textual.widgets.markdown import MarkdownBlock
 from textual.worker import get_current_worker
 
+from vetting.tui.data import drop_in_steps, items_of
 from vetting.tui.widgets.footer import Footer
 from vetting.tui.widgets.navbar import NavBar
 from vetting.tui.widgets.results_common import (
@@ -90,39 +91,6 @@ def preview_markdown(markdown: str, rows: int = PREVIEW_ROWS) -> str:
             out.extend(lines[i:j])
         i = j
     return "\n".join(out) + "\n"
-
-
-def items_of(data) -> list:
-    """The items of the lists, tuples and dicts `data` holds, and of those held by its
-    attributes one level down (the ranking's results), in a list of our own.
-
-    Freeing the memo's gathered records all at once (their last reference dropped, at 10,000
-    instruments) is one chain of deallocations in C that holds the interpreter for about 150 ms,
-    so the interface's keys wait although the work is in a thread. Holding the items here lets
-    the caller drop `data` (its containers then go at once, cheaply) and hand the items to
-    `drop_in_steps`. Nothing is changed: an item still referred to elsewhere stays alive.
-    """
-    held: list = []
-
-    def take(value, depth: int) -> None:
-        if isinstance(value, (list, tuple)):
-            held.extend(value)
-        elif isinstance(value, dict):
-            held.extend(value.values())
-        elif depth and hasattr(value, "__dict__") and not isinstance(value, type):
-            for inner in vars(value).values():
-                take(inner, depth - 1)
-
-    for value in vars(data).values():
-        take(value, 1)
-    return held
-
-
-def drop_in_steps(held: list, step: int = 200) -> None:
-    """Empty `held` from the end, `step` items at a time: between steps the interpreter can
-    switch to the interface's thread."""
-    while held:
-        del held[-step:]
 
 
 # -- the preview's widgets: one per table and one per list -------------------------------------

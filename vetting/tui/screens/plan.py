@@ -168,6 +168,7 @@ class PlanScreen(Screen):
     def load(self) -> None:
         from vetting.appraisal import rank
         from vetting.records.gcpause import gc_pause
+        from vetting.tui.data import drop_in_steps, items_of
 
         try:
             store = store_of(self, self.store_url)
@@ -177,17 +178,22 @@ class PlanScreen(Screen):
             with gc_pause():
                 instruments = sorted(store.instruments(), key=lambda i: i.title.lower())
                 start = chosen_instrument(self.app, self.job_key)
+                held: list = []
                 if start is None and instruments:
                     try:  # no choice yet: start on the engine's top choice (one draw, nothing recorded)
-                        top = rank(job, instruments, draws=1, seed=0, as_of=as_of(self)).top
-                        start = top.instrument if top is not None else None
+                        ranking = rank(job, instruments, draws=1, seed=0, as_of=as_of(self))
+                        start = ranking.top.instrument if ranking.top is not None else None
+                        held = items_of(ranking)
+                        del ranking
                     except ValueError:
                         start = None
                 entries = [InstrumentEntry(i.key, i.title) for i in instruments]
                 keys = [e.key for e in entries]
                 index = keys.index(start) if start in keys else 0
                 current = instruments[index] if instruments else None
+                held.extend(instruments)
                 del instruments
+                drop_in_steps(held)  # not all at once: that held the keys (see drop_in_steps)
         except Exception as exc:
             self.app.call_from_thread(self._failed, exc)
             return
