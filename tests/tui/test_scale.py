@@ -500,3 +500,34 @@ def test_the_gathered_records_are_let_go_in_steps_without_changing_anything():
     drop_in_steps(held, step=7)
     assert held == [] and all(r() is None for r in refs)
     assert len(shared) == 3 and all(isinstance(r, Record) for r in shared)  # still referred to: untouched
+
+
+async def test_plan_and_gaps_let_go_of_the_records_they_read_in_steps(tmp_path, app_for, settle, monkeypatch):
+    """Plan and Gaps read every instrument in a worker; what they are done with is handed to
+    drop_in_steps (freed a step at a time, so the interface's keys can run in between), not
+    dropped at once. Plan also hands over its one-draw ranking's results."""
+    import vetting.tui.data as data
+
+    url = _generated_url(tmp_path, 120)
+    with Store.open(url) as store:
+        job = _first_job(store).key
+        n = len(store.instruments())
+    handed: list[tuple[str, list[str]]] = []
+    original = data.drop_in_steps
+
+    def recording(held: list, step: int = 200) -> None:
+        handed.append((type(pilot.app.screen).__name__, [type(x).__name__ for x in held]))
+        original(held, step)
+        assert held == []
+
+    monkeypatch.setattr(data, "drop_in_steps", recording)
+    app = app_for(url)
+    async with app.run_test(size=(120, 40)) as pilot:
+        gaps = await _open(pilot, settle, "gaps", job)
+        assert isinstance(gaps, GapsScreen) and len(gaps.reports) == n  # the screen is whole
+        await _open(pilot, settle, "plan", job)
+    by_screen = dict(handed)
+    assert by_screen["GapsScreen"] == ["Instrument"] * n
+    plan_kinds = by_screen["PlanScreen"]
+    assert plan_kinds.count("Instrument") == n
+    assert any("Appraisal" in kind for kind in plan_kinds)  # the ranking that chose the first instrument
