@@ -192,13 +192,11 @@ class Data:
 
 def items_of(data) -> list:
     """The items of the lists, tuples and dicts `data` holds, and of those held by its
-    attributes one level down (the ranking's results), in a list of our own.
+    attributes one level down (a ranking's results), in a list of our own.
 
-    Freeing the memo's gathered records all at once (their last reference dropped, at 10,000
-    instruments) is one chain of deallocations in C that holds the interpreter for about 150 ms,
-    so the interface's keys wait although the work is in a thread. Holding the items here lets
-    the caller drop `data` (its containers then go at once, cheaply) and hand the items to
-    `drop_in_steps`. Nothing is changed: an item still referred to elsewhere stays alive.
+    Holding the items here lets the caller drop `data` (its containers then go at once,
+    cheaply) and hand the items to `drop_in_steps`. Nothing is changed: an item still referred
+    to elsewhere stays alive.
     """
     held: list = []
 

@@ -182,9 +182,10 @@ class PlanScreen(Screen):
                 if start is None and instruments:
                     try:  # no choice yet: start on the engine's top choice (one draw, nothing recorded)
                         ranking = rank(job, instruments, draws=1, seed=0, as_of=as_of(self))
-                        start = ranking.top.instrument if ranking.top is not None else None
+                        top = ranking.top
+                        start = top.instrument if top is not None else None
                         held = items_of(ranking)
-                        del ranking
+                        del ranking, top
                     except ValueError:
                         start = None
                 entries = [InstrumentEntry(i.key, i.title) for i in instruments]
