@@ -7,6 +7,7 @@ changes, the first section shown, and the other sections built from the new reco
 
 from __future__ import annotations
 
+import contextlib
 import threading
 
 from textual.widgets import TabbedContent
@@ -44,6 +45,27 @@ async def _closed_editor(app, pilot, settle) -> InstrumentEditor:
     await pilot.press("escape")
     await settle(pilot)
     return editor
+
+
+async def _leave_discarding(app, pilot, settle) -> None:
+    """Escape from an editor with unsaved changes: it asks, and "y" throws them away."""
+    await pilot.press("escape")
+    await settle(pilot)
+    assert isinstance(app.screen, Confirm)
+    await pilot.press("y")
+    await settle(pilot)
+
+
+@contextlib.asynccontextmanager
+async def _editor_with_reads_held(app_for, url, settle, monkeypatch, key: str | None = None):
+    """A running app whose instrument editor was opened and closed once, with reading a record
+    (`key`'s, or any) held until the yielded event is set: (app, pilot, editor, release)."""
+    app = app_for(url)
+    release = threading.Event()
+    async with app.run_test(size=(100, 30)) as pilot:
+        editor = await _closed_editor(app, pilot, settle)
+        _hold_reads(monkeypatch, release, key)
+        yield app, pilot, editor, release
 
 
 def _hold_reads(monkeypatch, release: threading.Event, key: str | None = None) -> None:
@@ -92,11 +114,7 @@ async def test_the_next_instrument_shows_its_own_values_and_nothing_left_over(se
         await pilot.press("ctrl+o")
         await settle(pilot)
         assert editor.built("reliability")
-        await pilot.press("escape")
-        await settle(pilot)
-        assert isinstance(app.screen, Confirm)
-        await pilot.press("y")
-        await settle(pilot)
+        await _leave_discarding(app, pilot, settle)
         assert isinstance(app.screen, CatalogueScreen)
 
         await _open(app, pilot, settle, "open_instrument", "tally-quick")
@@ -158,11 +176,7 @@ async def test_a_new_instrument_after_a_stored_one_starts_blank(seeded_url, app_
 
 
 async def test_a_read_slower_than_the_limit_shows_loading_then_the_record(seeded_url, app_for, settle, monkeypatch):
-    app = app_for(seeded_url)
-    release = threading.Event()
-    async with app.run_test(size=(100, 30)) as pilot:
-        editor = await _closed_editor(app, pilot, settle)
-        _hold_reads(monkeypatch, release)
+    async with _editor_with_reads_held(app_for, seeded_url, settle, monkeypatch) as (app, pilot, editor, release):
         app.open_instrument("ledger-scan")
         await pilot.pause(editor.SHOW_LOADING_AFTER + 0.2)
         assert app.screen is editor
@@ -175,11 +189,9 @@ async def test_a_read_slower_than_the_limit_shows_loading_then_the_record(seeded
 
 
 async def test_only_the_last_record_asked_for_is_shown(seeded_url, app_for, settle, monkeypatch):
-    app = app_for(seeded_url)
-    gate = threading.Event()
-    async with app.run_test(size=(100, 30)) as pilot:
-        editor = await _closed_editor(app, pilot, settle)
-        _hold_reads(monkeypatch, gate, "tally-quick")  # the first read ends after the second
+    # the first read (tally-quick's) ends after the second
+    async with _editor_with_reads_held(app_for, seeded_url, settle, monkeypatch, "tally-quick") as (
+            app, pilot, editor, gate):
         app.open_instrument("tally-quick")
         app.open_instrument("ledger-scan")
         await pilot.pause(0.1)
@@ -192,11 +204,7 @@ async def test_only_the_last_record_asked_for_is_shown(seeded_url, app_for, sett
 
 
 async def test_going_elsewhere_before_the_record_is_read_does_not_show_it(seeded_url, app_for, settle, monkeypatch):
-    app = app_for(seeded_url)
-    release = threading.Event()
-    async with app.run_test(size=(100, 30)) as pilot:
-        editor = await _closed_editor(app, pilot, settle)
-        _hold_reads(monkeypatch, release)
+    async with _editor_with_reads_held(app_for, seeded_url, settle, monkeypatch) as (app, pilot, editor, release):
         app.open_instrument("ledger-scan")
         await pilot.press("f3")  # within the wait, before "loading…" would show
         await pilot.pause(0.05)
@@ -289,11 +297,7 @@ async def test_a_section_shows_the_next_records_values_whatever_their_number(see
         first = editor.query_one("#list-reliability", RecordList).blocks[0].fields["value"]
         await _type_into(pilot, first, "1.3")
         assert first.error
-        await pilot.press("escape")
-        await settle(pilot)
-        assert isinstance(app.screen, Confirm)
-        await pilot.press("y")
-        await settle(pilot)
+        await _leave_discarding(app, pilot, settle)
 
         await _open(app, pilot, settle, "open_instrument", "ledger-scan")
         assert app.screen is editor and not editor.built("reliability")
