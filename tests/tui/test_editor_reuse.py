@@ -97,7 +97,7 @@ async def test_editors_are_built_ahead_while_the_catalogue_rests(seeded_url, app
         await _open(app, pilot, settle, "open_instrument", "ledger-scan")
         assert app.screen is spare
         assert _field(spare, ".description", "title").text == "Ledger Scan Checking Task"
-        assert _field(spare, ".description", "key").input.disabled
+        assert _field(spare, ".description", "key").locked
         assert not spare.is_dirty()
 
 
@@ -121,7 +121,7 @@ async def test_the_next_instrument_shows_its_own_values_and_nothing_left_over(se
         assert app.screen is editor  # the same form, refilled
         desc = ".description"
         assert _field(editor, desc, "key").text == "tally-quick"
-        assert _field(editor, desc, "key").input.disabled
+        assert _field(editor, desc, "key").locked
         assert _field(editor, desc, "title").text == "Tally Quick Numbers"
         assert _field(editor, desc, "minutes").text == "20"
         assert _field(editor, desc, "publisher").text == "Brookfen Assessments"
@@ -154,7 +154,7 @@ async def test_a_new_instrument_after_a_stored_one_starts_blank(seeded_url, app_
         await settle(pilot)
         assert app.screen is editor
         key = _field(editor, ".description", "key")
-        assert not key.input.disabled and key.text == ""
+        assert not key.locked and key.text == ""
         assert app.focused is key.input
         assert all(f.text == "" for f in editor.query_one(".description", RecordBlock).fields.values())
         # "is required" waits for the first save, as on a form built new
@@ -234,7 +234,7 @@ async def test_the_job_editor_refilled_for_a_new_job_builds_every_section(seeded
         await _open(app, pilot, settle, "open_job", None)
         assert app.screen is editor
         key = _field(editor, ".job-profile", "key")
-        assert not key.input.disabled and key.text == ""
+        assert not key.locked and key.text == ""
         assert _field(editor, ".job-profile", "title").text == ""
         # a new job builds its one blank requirement and its policy at once (checked on saving)
         assert editor.built("requirements") and editor.built("policy")
@@ -246,7 +246,7 @@ async def test_the_job_editor_refilled_for_a_new_job_builds_every_section(seeded
         await _open(app, pilot, settle, "open_job", "claims-clerk")
         assert app.screen is editor
         assert _field(editor, ".job-profile", "title").text == "Claims clerk"
-        assert _field(editor, ".job-profile", "key").input.disabled
+        assert _field(editor, ".job-profile", "key").locked
         assert not editor.built("requirements")
         await pilot.press("ctrl+o")
         await settle(pilot)

@@ -12,7 +12,7 @@ from vetting.records.store import Store
 from vetting.tui.screens.catalogue import CatalogueScreen
 from vetting.tui.screens.instrument import InstrumentEditor
 from vetting.tui.widgets.confirm import Confirm
-from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField
+from vetting.tui.widgets.form import LABEL_WIDTH, RecordBlock, RecordList, RuleField
 
 
 def _field(screen, selector: str, name: str) -> RuleField:
@@ -20,7 +20,7 @@ def _field(screen, selector: str, name: str) -> RuleField:
 
 
 async def _type_into(pilot, field: RuleField, text: str) -> None:
-    field.input.focus()
+    field.edit()
     await pilot.pause()
     field.input.value = ""
     await pilot.press(*text)
@@ -52,7 +52,7 @@ async def test_new_instrument_typed_and_saved(db_url, app_for, settle):
         await settle(pilot)
         assert "Saved" in str(editor.query_one("#banner").render())
         assert not editor.is_dirty()
-        assert _field(editor, ".description", "key").input.disabled  # the key is fixed once saved
+        assert _field(editor, ".description", "key").locked  # the key is fixed once saved
         # back on the catalogue the new row is there without a reload
         await pilot.press("escape")
         await settle(pilot)
@@ -165,7 +165,7 @@ async def test_removing_an_entry(seeded_url, app_for, settle):
         editor.query_one("#sections", TabbedContent).active = "reliability"
         await settle(pilot)
         rel = editor.query_one("#list-reliability", RecordList)
-        rel.blocks[1].fields["value"].input.focus()
+        rel.blocks[1].fields["value"].edit()
         await pilot.press("ctrl+y")
         await settle(pilot)
         assert len(rel.blocks) == 1
@@ -299,7 +299,7 @@ async def test_the_label_shows_a_broken_rule_by_weight_as_well_as_colour(db_url,
     async with app.run_test(size=(100, 30)) as pilot:
         editor = await _open_new(pilot, settle)
         minutes = _field(editor, ".description", "minutes")
-        assert minutes.render().plain == "minutes *"
+        assert minutes.render().plain[:LABEL_WIDTH].rstrip() == "minutes *"
         assert not _bold(minutes.render())
         await _type_into(pilot, minutes, "-5")
         assert minutes.has_class("-invalid") and _bold(minutes.render())
@@ -328,3 +328,53 @@ async def test_add_entry_in_a_section_of_one_record_says_why_nothing_is_added(db
         await pilot.press("ctrl+n")
         await settle(pilot)
         assert len(editor.query_one("#list-reliability", RecordList).blocks) == 1
+
+
+def _screen_lines(app) -> list[str]:
+    """The terminal's text as drawn (every widget composited)."""
+    return [strip.text for strip in app.screen._compositor.render_strips()]
+
+
+def _row_of(app, widget) -> str:
+    return _screen_lines(app)[widget.region.y]
+
+
+async def test_a_field_gets_its_input_only_when_the_cursor_comes_to_it(seeded_url, app_for, settle):
+    """A field the cursor has not been in is drawn as one line of text: its label, then its
+    value in the column where its input shows text. The input is mounted when the cursor
+    arrives (the editor's first field, Tab, a click) and stays; a locked field never gets one
+    and Tab passes it by. Showing a section thus builds one input, not one a field."""
+    app = app_for(seeded_url)
+    async with app.run_test(size=(100, 30)) as pilot:
+        await settle(pilot)
+        app.open_instrument("tally-quick")
+        await settle(pilot)
+        editor = app.screen
+        desc = editor.query_one(".description", RecordBlock)
+        fields = desc.fields
+        # the key is locked once saved, so the cursor starts in the title: the only input
+        assert [name for name, f in fields.items() if f.input is not None] == ["title"]
+        assert len(desc.query(Input)) == 1 and app.focused is fields["title"].input
+        key, publisher = fields["key"], fields["publisher"]
+        assert key.locked and key.input is None
+        title_row, publisher_row = _row_of(app, fields["title"]), _row_of(app, publisher)
+        value_column = title_row.index("Tally Quick Numbers")
+        assert publisher_row.index("Brookfen Assessments") == value_column  # text lines up with the input
+        assert _row_of(app, key).index("tally-quick") == value_column
+        await pilot.press("tab")
+        await pilot.pause()
+        assert publisher.input is not None and app.focused is publisher.input
+        assert publisher.input.value == "Brookfen Assessments"
+        assert _row_of(app, publisher).index("Brookfen Assessments") == value_column
+        await pilot.press("shift+tab", "shift+tab")  # back past the title: the locked key is skipped
+        await pilot.pause()
+        assert app.focused is not None and app.focused is not key and key.input is None
+        edition = fields["edition"]
+        assert edition.input is None and edition.text == ""
+        assert "text" in _row_of(app, edition)  # an empty field shows its hint, as the input would
+        await pilot.click(edition, offset=(LABEL_WIDTH + 3, 0))
+        await pilot.pause()
+        assert edition.input is not None and app.focused is edition.input
+        await pilot.press(*"2nd")
+        await pilot.pause()
+        assert edition.text == "2nd" and editor.is_dirty()

@@ -16,7 +16,7 @@ from vetting.tui.widgets.form import RecordBlock, RecordList, RuleField
 
 
 async def _type_into(pilot, field: RuleField, text: str) -> None:
-    field.input.focus()
+    field.edit()
     await pilot.pause()
     field.input.value = ""
     if text:
@@ -217,7 +217,7 @@ async def test_lock_key_works_while_typing_in_a_field(seeded_url, app_for, settl
     async with app.run_test(size=(100, 30)) as pilot:
         editor = await _open_job(app, pilot, settle)
         title = editor.query_one(".job-profile", RecordBlock).fields["title"]
-        title.input.focus()
+        title.edit()
         await pilot.pause()
         title.input.cursor_position = 0
         await pilot.press("ctrl+k")
@@ -277,7 +277,7 @@ async def test_a_long_list_builds_its_blocks_as_they_are_needed(seeded_url, app_
         assert 0 < first < 30 and first + len(reqs.pending) == 30
         assert not editor.is_dirty()
         # the cursor in the last block built: the next ones are built
-        reqs.blocks[-1].fields["critical"].input.focus()
+        reqs.blocks[-1].fields["critical"].edit()
         await settle(pilot)
         assert first < len(reqs.blocks) < 30
         # scrolled to the end: the rest, step by step

@@ -44,7 +44,7 @@ def test_instrument_editor_with_a_broken_rule(snap_compare, seeded_url, app_for,
         pilot.app.open_instrument("tally-quick")
         await _settle(pilot)
         field = pilot.app.screen.query_one(".description", RecordBlock).fields["minutes"]
-        field.input.focus()
+        field.edit()
         field.input.value = "-5"
         await _settle(pilot)
 
@@ -133,7 +133,7 @@ def test_broken_rule_without_colour(snap_compare, seeded_url, app_for, monkeypat
         pilot.app.open_instrument("tally-quick")
         await _settle(pilot)
         field = pilot.app.screen.query_one(".description", RecordBlock).fields["minutes"]
-        field.input.focus()
+        field.edit()
         field.input.value = "0"
         await _settle(pilot)
         assert "✗ minutes must be a number greater than 0" in str(field.query_one(".field-message").render())

@@ -217,7 +217,7 @@ class InstrumentEditor(EditorScreen):
     def after_saved(self, saved: Instrument) -> None:
         self.record_label = f"instrument {saved.key}"
         key_field = self.query_one(".description", RecordBlock).fields["key"]
-        key_field.input.disabled = True
+        key_field.locked = True
         self._note_new_attributes()
         for screen in self.app.screen_stack:
             refresh = getattr(screen, "record_saved", None)

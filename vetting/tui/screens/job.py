@@ -352,7 +352,7 @@ class JobEditor(EditorScreen):
 
     def after_saved(self, saved: Job) -> None:
         self.record_label = f"job {saved.key}"
-        self.query_one(".job-profile", RecordBlock).fields["key"].input.disabled = True
+        self.query_one(".job-profile", RecordBlock).fields["key"].locked = True
         self._show_versions()
         self._note_new_attributes()
         self.app.current_job = saved.key

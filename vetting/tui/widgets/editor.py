@@ -192,7 +192,7 @@ class EditorScreen(Screen):
             # the cursor goes to the first field before the form is first painted (focusing
             # after that paint cost a second layout and paint), then the key line is built
             # for the form as it will be used
-            self._after_show()
+            await self._after_show()
             footer = self._mount_footer()
             if footer is not None:
                 await footer
@@ -226,7 +226,7 @@ class EditorScreen(Screen):
             tabs.active = first
             self._show_loading(False)
             self.ready = True
-            self._after_show()
+            await self._after_show()
         for pane_id in built:
             self._remember(pane_id)
 
@@ -288,7 +288,7 @@ class EditorScreen(Screen):
             return
         await self._empty_sections(keep=first)
         tabs.active = first
-        self.focus_first_input()
+        await self.focus_first_input()
         for footer in self.query(Footer):
             footer.call_later(footer.rebuild_now)  # (the footer builds its keys in its own turn)
 
@@ -329,8 +329,8 @@ class EditorScreen(Screen):
             await self.build_pane(pane_id)
             self.call_after_refresh(self.focus_first_input)
 
-    def _after_show(self) -> None:
-        self.focus_first_input()
+    async def _after_show(self) -> None:
+        await self.focus_first_input()
         self.refresh_bindings()
 
     def _neighbour(self, step: int) -> str | None:
@@ -342,16 +342,17 @@ class EditorScreen(Screen):
         index = ids.index(tabs.active) if tabs.active in ids else 0
         return ids[(index + step) % len(ids)]
 
-    def focus_first_input(self) -> None:
+    def focus_first_input(self) -> AwaitMount:
+        """The cursor to the first field of the section shown that is not locked; awaiting the
+        result waits until that field's input is mounted (see RuleField.edit)."""
         pane = self.current_pane()
-        if pane is None:
-            return
-        for field in pane.query(RuleField):
-            if not field.input.disabled:
-                # at once (Widget.focus waits for the next turn of the loop, often after a
-                # paint, and the focus change then costs a second layout and paint)
-                self.set_focus(field.input)
-                return
+        if pane is not None:
+            for field in pane.query(RuleField):
+                if not field.locked:
+                    # at once (Widget.focus waits for the next turn of the loop, often after a
+                    # paint, and the focus change then costs a second layout and paint)
+                    return field.edit()
+        return AwaitMount(self, [])
 
     def current_pane(self) -> TabPane | None:
         try:
@@ -438,7 +439,7 @@ class EditorScreen(Screen):
     def _focus_block(self, block: RecordBlock) -> None:
         fields = list(block.query(RuleField))
         if fields:
-            fields[0].input.focus()
+            fields[0].edit()
             block.scroll_visible()
 
     async def action_remove_entry(self) -> None:
@@ -474,7 +475,7 @@ class EditorScreen(Screen):
         with self.app.batch_update():
             await self.build_pane(target)
             tabs.active = target
-            self.focus_first_input()
+            await self.focus_first_input()
 
     def action_leave(self) -> None:
         self.app.after_confirming(self._close)
@@ -494,7 +495,7 @@ class EditorScreen(Screen):
         more = f" (and {count - 1} more)" if count > 1 else ""
         section = pane._title if pane is not None else ""  # type: ignore[attr-defined]
         self.banner(f"✗ Not saved: {section} › {field.spec.title} {message}{more}", error=True)
-        self.call_after_refresh(field.input.focus)
+        self.call_after_refresh(field.edit)
 
     async def action_save(self) -> None:
         if self.saving or not self.ready:

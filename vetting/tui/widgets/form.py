@@ -25,7 +25,7 @@ from textual.containers import Vertical
 from textual.content import Content
 from textual.message import Message
 from textual.suggester import SuggestFromList
-from textual.widget import Widget
+from textual.widget import AwaitMount, Widget
 from textual.widgets import Input, Static
 
 from vetting.records import rules
@@ -167,19 +167,36 @@ def convert(spec: FieldSpec, text: str) -> Any:
     return rules.coerce(spec.entity, spec.name, text)
 
 
-class RuleField(Widget):
-    """A labelled input checked on every keystroke; shows `✗ rule` beside the field."""
+#: columns of a field's label, left of its value
+LABEL_WIDTH = 24
+
+
+class RuleField(Widget, can_focus=True):
+    """A labelled value checked on every keystroke; shows `✗ rule` beside the field.
+
+    A field is drawn as one line of text (its label, then its value where the input will be)
+    until the cursor first comes to it: only then does it mount a Textual `Input`, which stays
+    for the rest of the field's life. A form of a dozen fields thus shows one widget a field and
+    one input, instead of two widgets a field (`bench/form_cost.py` measures what that saves
+    Textual in showing a section). `edit()` puts the cursor in the field; focusing the field
+    itself (Tab, a click) does the same."""
+
+    COMPONENT_CLASSES = {"rule-field--value", "rule-field--hint", "rule-field--locked"}
 
     class Changed(Message):
         def __init__(self, field: RuleField) -> None:
             super().__init__()
             self.field = field
 
-    def __init__(self, spec: FieldSpec, text: str = "", *, disabled_input: bool = False) -> None:
-        super().__init__(classes="rule-field")
+    def __init__(self, spec: FieldSpec, text: str = "", *, locked: bool = False) -> None:
+        # "-as-text" until the field has an input (form.tcss puts a message below the line)
+        super().__init__(classes="rule-field -as-text")
         self.spec = spec
         self.initial = text
-        self._disabled_input = disabled_input
+        #: the value's text while the field has no input (the input holds it afterwards)
+        self._text = text
+        self._locked = locked
+        self.can_focus = not locked
         #: message from a rule on this field alone
         self.own_error: str | None = None
         #: message from a rule across fields of the record, pinned here
@@ -192,46 +209,98 @@ class RuleField(Widget):
         #: that is no change, and re-checking the whole record for it made opening a form
         #: check every field once per field)
         self._checked_text: str | None = None
-        self._input: Input
+        self._input: Input | None = None
         self._message: Static | None = None
-
-    def compose(self) -> ComposeResult:
-        spec = self.spec
-        choices = spec.choices()
-        suggester = SuggestFromList(choices, case_sensitive=False) if choices else None
-        self._input = Input(
-            value=self.initial,
-            placeholder=spec.hint(),
-            suggester=suggester,
-            # "-valid" from the start: Input marks itself valid when its value is first set
-            # (it has no validators of its own), which would restyle it once more on mounting
-            classes="field-input -valid",
-            disabled=self._disabled_input,
-            id=f"in-{spec.name}",
-        )
-        yield self._input
-        # The label is this widget's own content (drawn left of the input, which sits in the
-        # margin after it); the message line below the field is added the first time there is
-        # something to say (most fields never need one). Two widgets a field instead of four
-        # make a form quicker to open.
 
     def render(self) -> Content:
         spec = self.spec
         label = spec.title + (" *" if spec.required else "")
         # the colour is the widget's (form.tcss: muted, or the error colour when a rule breaks);
         # bold is set here, as a style of the text, so the input does not inherit it
-        return Content.styled(label, "bold" if self.has_class("-invalid") else "")
+        label_content = Content.styled(label, "bold" if self.has_class("-invalid") else "")
+        if self._input is not None:
+            return label_content  # the input, in the margin after the label, shows the value
+        # no input yet: the value drawn where the input will be, as the input draws it
+        # (a column of padding each side; the hint, dimmed, in an empty field)
+        # (outer_size: the size laid out, read without asking the screen where the widget is,
+        # which `size` does and which cost more than drawing the line; a field has no padding)
+        room = max(0, self.outer_size.width - LABEL_WIDTH)
+        text, component = self._text, "rule-field--value"
+        if self._locked:
+            component = "rule-field--locked"
+        elif not text:
+            text, component = spec.hint(), "rule-field--hint"
+        shown = (" " + text)[: max(0, room - 1)].ljust(room)
+        label_column = label_content.truncate(LABEL_WIDTH, pad=True)
+        return Content.assemble(label_column, (shown, self.get_visual_style(component)))
 
     def on_mount(self) -> None:
         self.check()
 
+    def _make_input(self) -> Input:
+        spec = self.spec
+        choices = spec.choices()
+        suggester = SuggestFromList(choices, case_sensitive=False) if choices else None
+        invalid = " -invalid" if self.has_class("-invalid") else ""
+        return Input(
+            value=self._text,
+            placeholder=spec.hint(),
+            suggester=suggester,
+            # "-valid" from the start: Input marks itself valid when its value is first set
+            # (it has no validators of its own), which would restyle it once more on mounting
+            classes="field-input -valid" + invalid,
+            disabled=self._locked,
+            id=f"in-{spec.name}",
+        )
+
+    def edit(self) -> AwaitMount:
+        """Put the cursor in this field, mounting its input the first time.
+
+        The focus moves at once (not on the next turn of the loop). Awaiting the result waits
+        until the input is mounted: the editor does so before a section is first painted, so
+        that showing it with the cursor in its first field costs one layout and paint, not a
+        second one for the input mounted after the first."""
+        field_input = self._input
+        mounting = AwaitMount(self, [])
+        if field_input is None:
+            field_input = self._input = self._make_input()
+            self.can_focus = False  # from now on the input takes the cursor
+            self.remove_class("-as-text")
+            mounting = self.mount(field_input, before=0 if self._message is not None else None)
+            self.refresh()
+        if not self._locked:
+            self.screen.set_focus(field_input)
+        return mounting
+
+    def on_focus(self, event: events.Focus) -> None:
+        """Tab or a click on a field drawn as text: edit it."""
+        if self._input is None and not self._locked:
+            self.edit()
+
     @property
-    def input(self) -> Input:
+    def input(self) -> Input | None:
+        """The field's input, or None while the cursor has never been in the field."""
         return self._input
 
     @property
+    def locked(self) -> bool:
+        """Whether the value is fixed (shown greyed, the cursor passes it by)."""
+        return self._locked
+
+    @locked.setter
+    def locked(self, locked: bool) -> None:
+        if locked == self._locked:
+            return
+        self._locked = locked
+        if self._input is not None:
+            self._input.disabled = locked
+        else:
+            self.can_focus = not locked
+            self.refresh()
+
+    @property
     def text(self) -> str:
-        return self.input.value
+        return self._input.value if self._input is not None else self._text
 
     @property
     def error(self) -> str | None:
@@ -277,22 +346,28 @@ class RuleField(Widget):
         if self.has_class("-invalid") != invalid:
             self.set_class(invalid, "-invalid")
             self.refresh()  # the label's weight
-        self.input.set_class(invalid, "-invalid")
+        if self._input is not None:
+            self._input.set_class(invalid, "-invalid")
 
-    def refill(self, text: str, *, disabled: bool) -> None:
+    def refill(self, text: str, *, locked: bool) -> None:
         """Start again on `text`, as if the field had just been built with it (the editor
         reuses its form for the next record)."""
         self.initial = text
         self.revealed = bool(text)
         self.record_error = None
         self.note = None
-        field_input = self.input
-        field_input.disabled = disabled
-        if field_input.value != text:
-            field_input.value = text
-        # as a field built with this text: the cursor at its end, the view at its start
-        field_input.cursor_position = len(text)
-        field_input.scroll_home(animate=False, force=True, immediate=True)
+        self.locked = locked
+        field_input = self._input
+        if field_input is None:
+            if self._text != text:
+                self._text = text
+                self.refresh()
+        else:
+            if field_input.value != text:
+                field_input.value = text
+            # as a field built with this text: the cursor at its end, the view at its start
+            field_input.cursor_position = len(text)
+            field_input.scroll_home(animate=False, force=True, immediate=True)
         self.check()
 
     def reveal(self) -> None:
@@ -307,6 +382,7 @@ class RuleField(Widget):
 
     def on_input_changed(self, event: Input.Changed) -> None:
         event.stop()
+        self._text = event.value
         if event.value == self._checked_text:
             return  # already checked (the value the field was built with)
         if event.value != self.initial:
@@ -339,7 +415,7 @@ class RecordBlock(Vertical):
         if self.block_title:
             yield Static(self.block_title, classes="block-title", markup=False)
         for spec in self.specs:
-            yield RuleField(spec, self.texts.get(spec.name, ""), disabled_input=spec.name in self.locked)
+            yield RuleField(spec, self.texts.get(spec.name, ""), locked=spec.name in self.locked)
 
     @property
     def fields(self) -> dict[str, RuleField]:
@@ -354,7 +430,7 @@ class RecordBlock(Vertical):
         self.texts = texts
         self.locked = set(locked)
         for name, field in self.fields.items():
-            field.refill(texts.get(name, ""), disabled=name in self.locked)
+            field.refill(texts.get(name, ""), locked=name in self.locked)
         self.check_record()
 
     def on_rule_field_changed(self, event: RuleField.Changed) -> None:
