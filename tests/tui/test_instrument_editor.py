@@ -36,6 +36,15 @@ async def _open_new(pilot, settle) -> InstrumentEditor:
     return screen
 
 
+async def _open_saved(app, pilot, settle, key: str = "tally-quick") -> InstrumentEditor:
+    await settle(pilot)
+    app.open_instrument(key)
+    await settle(pilot)
+    screen = app.screen
+    assert isinstance(screen, InstrumentEditor)
+    return screen
+
+
 async def test_new_instrument_typed_and_saved(db_url, app_for, settle):
     app = app_for(db_url)
     async with app.run_test(size=(80, 24)) as pilot:
@@ -105,10 +114,7 @@ async def test_rules_show_beside_the_field_and_block_saving(db_url, app_for, set
 async def test_norm_table_must_increase(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_saved(app, pilot, settle)
         editor.query_one("#sections", TabbedContent).active = "norms"
         await settle(pilot)
         block = editor.query_one("#list-norms", RecordList).blocks[0]
@@ -127,10 +133,7 @@ async def test_editing_evidence_round_trips_through_the_store(seeded_url, app_fo
         before = store.instrument("tally-quick")
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_saved(app, pilot, settle)
         await _type_into(pilot, _field(editor, ".description", "minutes"), "22")
         editor.query_one("#sections", TabbedContent).active = "validity"
         await settle(pilot)
@@ -158,10 +161,7 @@ async def test_editing_evidence_round_trips_through_the_store(seeded_url, app_fo
 async def test_removing_an_entry(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_saved(app, pilot, settle)
         editor.query_one("#sections", TabbedContent).active = "reliability"
         await settle(pilot)
         rel = editor.query_one("#list-reliability", RecordList)
@@ -179,10 +179,7 @@ async def test_removing_an_entry(seeded_url, app_for, settle):
 async def test_leaving_with_unsaved_changes_asks(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        app.open_instrument("ledger-scan")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_saved(app, pilot, settle, "ledger-scan")
         await _type_into(pilot, _field(editor, ".description", "title"), "Changed title")
         await pilot.press("escape")
         await settle(pilot)
@@ -217,9 +214,7 @@ async def test_leaving_with_unsaved_changes_asks(seeded_url, app_for, settle):
 async def test_unchanged_editor_leaves_without_asking(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
-        app.open_instrument("calm-index")
-        await settle(pilot)
+        await _open_saved(app, pilot, settle, "calm-index")
         await pilot.press("escape")
         await settle(pilot)
         assert isinstance(app.screen, CatalogueScreen)
@@ -228,10 +223,7 @@ async def test_unchanged_editor_leaves_without_asking(seeded_url, app_for, settl
 async def test_concurrent_edit_is_refused_and_names_who(seeded_url, app_for, settle):
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("calm-index")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_saved(app, pilot, settle, "calm-index")
         # someone else saves the same instrument meanwhile
         with Store.open(seeded_url, user="other-person") as other:
             theirs = other.instrument("calm-index")
@@ -346,10 +338,7 @@ async def test_a_field_gets_its_input_only_when_the_cursor_comes_to_it(seeded_ur
     and Tab passes it by. Showing a section thus builds one input, not one a field."""
     app = app_for(seeded_url)
     async with app.run_test(size=(100, 30)) as pilot:
-        await settle(pilot)
-        app.open_instrument("tally-quick")
-        await settle(pilot)
-        editor = app.screen
+        editor = await _open_saved(app, pilot, settle)
         desc = editor.query_one(".description", RecordBlock)
         fields = desc.fields
         # the key is locked once saved, so the cursor starts in the title: the only input
