@@ -230,9 +230,12 @@ class RuleField(Widget, can_focus=True):
             component = "rule-field--locked"
         elif not text:
             text, component = spec.hint(), "rule-field--hint"
-        shown = (" " + text)[: max(0, room - 1)].ljust(room)
+        # in terminal cells (wide characters count twice), on one line whatever the text holds
+        shown = Content(" " + " ".join(text.splitlines())).truncate(max(0, room - 1), pad=True)
+        if room:
+            shown = shown.extend_right(1)
         label_column = label_content.truncate(LABEL_WIDTH, pad=True)
-        return Content.assemble(label_column, (shown, self.get_visual_style(component)))
+        return Content.assemble(label_column, shown.stylize(self.get_visual_style(component)))
 
     def on_mount(self) -> None:
         self.check()
