@@ -262,22 +262,24 @@ class RuleField(Widget, can_focus=True):
         The focus moves at once (not on the next turn of the loop). Awaiting the result waits
         until the input is mounted: the editor does so before a section is first painted, so
         that showing it with the cursor in its first field costs one layout and paint, not a
-        second one for the input mounted after the first."""
-        field_input = self._input
+        second one for the input mounted after the first. A locked field is not edited: it
+        gets no input and the cursor stays where it is."""
         mounting = AwaitMount(self, [])
+        if self._locked:
+            return mounting
+        field_input = self._input
         if field_input is None:
             field_input = self._input = self._make_input()
             self.can_focus = False  # from now on the input takes the cursor
             self.remove_class("-as-text")
             mounting = self.mount(field_input, before=0 if self._message is not None else None)
             self.refresh()
-        if not self._locked:
-            self.screen.set_focus(field_input)
+        self.screen.set_focus(field_input)
         return mounting
 
     def on_focus(self, event: events.Focus) -> None:
         """Tab or a click on a field drawn as text: edit it."""
-        if self._input is None and not self._locked:
+        if self._input is None:
             self.edit()
 
     @property
